@@ -1,1 +1,41 @@
-fn main(){}
+//! Criterion benchmarks, one group per stage. Inputs are fixed; setup stays outside the
+//! timed closures. Figures guide changes; they do not gate them.
+
+use criterion::{black_box, criterion_group, criterion_main, Criterion};
+use filter_core::crystal::Crystal;
+use filter_core::network::{Analyze, Branch, Element, FrequencyGrid, Ladder, Loss, Stage};
+
+/// An 8-crystal (or n-crystal) ladder of unequal crystals with C0, Rm and series capacitors.
+fn ladder(n: usize) -> Ladder {
+    let mut stages = Vec::new();
+    for i in 0..n {
+        let fs = 9e6 + 13.0 * i as f64 - 40.0;
+        let x = Crystal::from_fs_lm("x", fs, 15e-3 + 1e-4 * i as f64, 10.0, 4e-12).unwrap();
+        stages.push(Stage::Series(Branch::Series(vec![
+            Branch::Element(Element::Capacitor(120e-12 + 3e-12 * i as f64, Loss::Lossless)),
+            Branch::Element(Element::Crystal(x)),
+        ])));
+        if i + 1 < n {
+            stages.push(Stage::Shunt(Branch::Element(Element::Capacitor(
+                180e-12,
+                Loss::Lossless,
+            ))));
+        }
+    }
+    Ladder::new(270.0, 270.0, stages).unwrap()
+}
+
+fn analysis(c: &mut Criterion) {
+    let mut g = c.benchmark_group("analysis");
+    let lad8 = ladder(8);
+    let grid = FrequencyGrid::linear(8.99e6, 9.01e6, 10_001).unwrap();
+    g.bench_function("ladder_8x10001", |b| b.iter(|| black_box(lad8.sweep(&grid))));
+    let lad12 = ladder(12);
+    let grid = FrequencyGrid::linear(8.99e6, 9.01e6, 100_001).unwrap();
+    g.sample_size(20);
+    g.bench_function("ladder_12x100001", |b| b.iter(|| black_box(lad12.sweep(&grid))));
+    g.finish();
+}
+
+criterion_group!(benches, analysis);
+criterion_main!(benches);

@@ -259,12 +259,12 @@ impl Crystal {
     #[inline]
     pub(crate) fn z_dz(&self, w: f64) -> (Complex64, Complex64) {
         let (zm, dzm) = self.motional.z_dz(w);
-        // Main branch with C0 across: Z = zm / (1 + jωC0·zm).
+        // Main branch with C0 across: Z = zm / (1 + jωC0·zm), and
+        // dZ/dω = (dzm − jC0·zm²) / (1 + jωC0·zm)²: one reciprocal for both.
         let jc0 = Complex64::new(0.0, self.c0_f);
-        let den = Complex64::new(1.0, 0.0) + jc0 * w * zm;
-        let dden = jc0 * zm + jc0 * w * dzm;
-        let mut z = zm / den;
-        let mut dz = (dzm * den - zm * dden) / (den * den);
+        let inv = (Complex64::new(1.0, 0.0) + jc0 * w * zm).inv();
+        let mut z = zm * inv;
+        let mut dz = (dzm - jc0 * zm * zm) * inv * inv;
         // Spurious branches in parallel: Z' = Z / (1 + Z·Σy), y = 1/zs.
         if !self.spurious.is_empty() {
             let mut y = Complex64::new(0.0, 0.0);

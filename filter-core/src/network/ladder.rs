@@ -73,9 +73,7 @@ impl Ladder {
                 }
                 Stage::Shunt(br) => {
                     // [a b; c d]·[1 0; y 1] = [a + b·y, b; c + d·y, d]
-                    let (z, dz) = br.z_dz(w);
-                    let y = z.inv();
-                    let dy = -dz * y * y;
+                    let (y, dy) = br.y_dy(w);
                     da = da + db * y + b * dy;
                     dc = dc + dd * y + d * dy;
                     a += b * y;

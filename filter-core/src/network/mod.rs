@@ -177,6 +177,22 @@ impl Branch {
         }
     }
 
+    /// Admittance and dY/dω at angular frequency `w`; direct for a lossless capacitor or
+    /// inductor, by inversion otherwise.
+    #[inline]
+    pub(crate) fn y_dy(&self, w: f64) -> (Complex64, Complex64) {
+        match self {
+            Branch::Element(Element::Capacitor(c, Loss::Lossless)) => {
+                (Complex64::new(0.0, w * c), Complex64::new(0.0, *c))
+            }
+            _ => {
+                let (z, dz) = self.z_dz(w);
+                let y = z.inv();
+                (y, -dz * y * y)
+            }
+        }
+    }
+
     /// Impedance at `f_hz`.
     pub fn impedance(&self, f_hz: f64) -> Complex64 {
         self.z_dz(2.0 * std::f64::consts::PI * f_hz).0
