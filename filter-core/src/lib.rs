@@ -32,6 +32,7 @@
 
 #![deny(missing_docs)]
 
+pub mod as_built;
 pub mod batch;
 pub mod crystal;
 pub mod design;
