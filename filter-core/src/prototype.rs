@@ -3,7 +3,7 @@
 //!
 //! # The prototype
 //! An n-th order all-pole lowpass prototype is a ladder of n reactive elements between a unit
-//! source and a load (Matthaei, Young & Jones [2], §4.04). In the convention of [2]:
+//! source and a load (Matthaei, Young & Jones \[2\], §4.04). In the convention of \[2\]:
 //! g0 = 1 is the source (resistance if g1 is a shunt capacitor, conductance if g1 is a series
 //! inductor); g1 … gn alternate series inductance and shunt capacitance (or the dual: shunt
 //! capacitance first, same numbers); g(n+1) is the load, a resistance if gn is a shunt capacitor
@@ -14,22 +14,22 @@
 //! # Families and their normalization
 //! | family | \|S21(jω)\|² or poles | ω = 1 is |
 //! |---|---|---|
-//! | Butterworth | 1 / (1 + ω^(2n)) | the −3 dB point |
+//! | Butterworth | 1 / (1 + ω^(2n)) | the half-power (3.01 dB) point |
 //! | Chebyshev (ripple r dB) | 1 / (1 + ε² T_n²(ω)), ε² = 10^(r/10) − 1 | the ripple edge |
-//! | Bessel (Thomson [7]) | poles = roots of the reverse Bessel polynomial θ_n(s) | unit group delay at DC (as Zverev's tables [3]) |
-//! | Gaussian | 1 / Σ_{k=0..n} (aω²)^k / k!, a such that the sum is 2 at ω = 1 | the −3 dB point |
-//! | Legendre (optimum-L, Papoulis [5], Fukada [6]) | 1 / (1 + L_n(ω²)), L_n(0) = 0, L_n(1) = 1 | the −3 dB point |
+//! | Bessel (Thomson \[7\]) | poles = roots of the reverse Bessel polynomial θ_n(s) | unit group delay at DC (as Zverev's tables \[3\]) |
+//! | Gaussian | 1 / Σ_{k=0..n} (aω²)^k / k!, a such that the sum is 2 at ω = 1 | the half-power point |
+//! | Legendre (optimum-L, Papoulis \[5\], Fukada \[6\]) | 1 / (1 + L_n(ω²)), L_n(0) = 0, L_n(1) = 1 | the half-power point |
 //!
 //! *Gaussian.* The Gaussian magnitude exp(−aω²/2) has |H|² = 1/exp(aω²); the all-pole
 //! approximation of order n truncates the Taylor series of exp(aω²) after the term (aω²)^n/n!,
-//! the form of Zverev's "Gaussian" filters [3, §"Gaussian"]. This module chooses `a` (which tends
-//! to ln 2 as n grows) so that the −3 dB point is at ω = 1 for every n; Zverev's own frequency
+//! the form of Zverev's "Gaussian" filters \[3, §"Gaussian"\]. This module chooses `a` (which tends
+//! to ln 2 as n grows) so that the half-power point is at ω = 1 for every n; Zverev's own frequency
 //! scale may differ (our documented choice; rescale with [`Prototype::frequency_at_loss`]).
 //!
-//! *Legendre.* Papoulis's optimum-L response [5] is the monotonic response with the steepest
+//! *Legendre.* Papoulis's optimum-L response \[5\] is the monotonic response with the steepest
 //! slope at the cutoff. With y = 2ω² − 1 and P_i the Legendre polynomials:
 //! n = 2k+1 odd: L_n(ω²) = ∫_{−1}^{y} v(x)² dx, v = Σ_{i=0..k} (2i+1)·c·P_i;
-//! n = 2k+2 even (Fukada [6]): L_n(ω²) = ∫_{−1}^{y} (x+1) v(x)² dx, v = Σ (2i+1)·c·P_i over the
+//! n = 2k+2 even (Fukada \[6\]): L_n(ω²) = ∫_{−1}^{y} (x+1) v(x)² dx, v = Σ (2i+1)·c·P_i over the
 //! i ≤ k of the same parity as k; c is fixed by L_n(1) = 1. For n = 1, 2 the result is the
 //! Butterworth response.
 //!
@@ -55,10 +55,17 @@
 //!    ladder, [`Prototype::reversed`]; for Butterworth and Chebyshev all reflection zeros are on
 //!    the jω axis and there is no choice.)
 //! 5. Z_in = (E + F)/(E − F) is expanded as a continued fraction at s = ∞ (Cauer):
-//!    Z_in = g1·s + 1/(g2·s + 1/(g3·s + …)), and the constant left after n steps is g(n+1).
+//!    Z_in = g1·s + 1/(g2·s + 1/(g3·s + …)); the load is g(n+1) (R_L = Z_in(0)).
+//!    Numerically: E and F are first made consistent in double-double arithmetic (~32 digits):
+//!    the forced and free reflection zeros and K² are refined by Newton's method, and E is
+//!    rebuilt from the roots of F(s)F(−s) + K² next to the poles given. The g-values are
+//!    ill-conditioned in the polynomial coefficients (about a decade lost per order in f64), not
+//!    in the roots. The expansion then runs from both ends, g1 … g⌈n/2⌉ from the source and the
+//!    rest from the load (S22 = −F(−s)/E), which halves the error growth.
 //! 6. Internal check: the ladder is analysed again (ABCD cascade) at ~120 frequencies and its
 //!    |S21| compared with K/|E|; a relative deviation above 1e-7 returns
-//!    [`crate::ErrorKind::Numerical`] rather than wrong values.
+//!    [`crate::ErrorKind::Numerical`] rather than wrong values. (Named families and their
+//!    predistortions stay below ~1e-12.)
 //!
 //! The synthesis runs on poles scaled to unit geometric-mean magnitude, and the element values
 //! are scaled back.
@@ -67,15 +74,18 @@
 //! Resonators of finite unloaded q (normalized q0) behave as if s were replaced by s + d,
 //! d = 1/q0 on the prototype's frequency scale (uniform dissipation). A ladder synthesized from
 //! the poles p_i + d and built from such elements has S21 = K′/E(s + d − d) = K′/E(s): the
-//! desired shape, times the flat loss 20·log10(K/K′) dB (Dishal [4], Zverev [3]). The poles may
+//! desired shape, times the flat loss 20·log10(K/K′) dB (Dishal \[4\], Zverev \[3\]). The poles may
 //! move only while they stay in the left half-plane: d < min|Re p_i|, i.e. q0 > q_min
-//! ([`Prototype::q_min`]). The terminations of a predistorted prototype are unequal.
+//! ([`Prototype::q_min`]). The terminations of a predistorted prototype are unequal wherever
+//! its response no longer peaks at DC (Butterworth, Chebyshev; Bessel and Gaussian predistorted
+//! mildly still peak at DC and keep equal terminations).
 //!
 //! # Coupling coefficients and end q ([`Prototype::coupling_and_q`])
 //! For a band-pass realization normalized to the bandwidth at ω_ref:
 //! k(i,i+1) = 1/(ω_ref·√(g_i g_(i+1))), q_in = g0 g1 ω_ref, q_out = g_n g_(n+1) ω_ref
-//! ([2], §8.02; Zverev's k–q tables [3] use ω_ref = the −3 dB point). Cohn's estimate of the
-//! mid-band dissipation loss is 4.343·Σ g_i / q0 dB ([8]).
+//! (\[2\], §8.02; Zverev's k–q tables \[3\] use ω_ref = the half-power point, see
+//! [`HALF_POWER_DB`]). Cohn's estimate of the
+//! mid-band dissipation loss is 4.343·Σ g_i / q0 dB (\[8\]).
 //!
 //! # References
 //! 1. S. Darlington, "Synthesis of reactance 4-poles which produce prescribed insertion loss
@@ -86,10 +96,10 @@
 //! 3. A. I. Zverev, *Handbook of Filter Synthesis*, Wiley, 1967 (Bessel, Gaussian tables; k and q
 //!    tables; predistortion).
 //! 4. M. Dishal, "Design of dissipative band-pass filters producing desired exact
-//!    amplitude-frequency characteristics", Proc. IRE 37, 1949, pp. 1050–1069.
+//!    amplitude-frequency characteristics", Proc. IRE 37, 1949.
 //! 5. A. Papoulis, "Optimum filters with monotonic response", Proc. IRE 46, 1958, pp. 606–609.
 //! 6. M. Fukada, "Optimum filters of even orders with monotonic response", IRE Trans. Circuit
-//!    Theory CT-6, 1959, pp. 277–281.
+//!    Theory CT-6, 1959.
 //! 7. W. E. Thomson, "Delay networks having maximally flat frequency characteristics",
 //!    Proc. IEE 96 (III), 1949, pp. 487–490.
 //! 8. S. B. Cohn, "Dissipation loss in multiple-coupled-resonator filters", Proc. IRE 47, 1959,
@@ -97,6 +107,8 @@
 //! 9. P. Virtanen et al., "SciPy 1.0: fundamental algorithms for scientific computing in Python",
 //!    Nature Methods 17, 2020 (`scipy.signal.buttap`, `cheb1ap`, `besselap`: the golden data of
 //!    the tests).
+//! 10. T. J. Dekker, "A floating-point technique for extending the available precision",
+//!     Numer. Math. 18, 1971 (the double-double arithmetic of the synthesis).
 
 use crate::error::{Error, ErrorKind, Result};
 use nalgebra::{DMatrix, Schur};
@@ -127,13 +139,14 @@ const SIGNIFICANT: f64 = 1e-10;
 const TOUCHING: f64 = 1e-10;
 
 /// Largest relative deviation of the re-analysed ladder from K/|E| before the synthesis is
-/// declared numerically failed. Good syntheses are at ~1e-13; see the module docs.
+/// declared numerically failed. Every named family and its predistortions (to 0.9 of the
+/// limit), orders 1–12, stay below ~1e-12.
 const SANITY: f64 = 1e-7;
 
 /// The family of an all-pole lowpass response.
 #[derive(Debug, Clone, PartialEq, Serialize, Deserialize)]
 pub enum Family {
-    /// Maximally flat magnitude; −3 dB at ω = 1.
+    /// Maximally flat magnitude; half power at ω = 1.
     Butterworth,
     /// Equal passband ripple; the ripple edge is at ω = 1.
     Chebyshev {
@@ -142,9 +155,9 @@ pub enum Family {
     },
     /// Maximally flat group delay (Thomson); unit delay at DC.
     Bessel,
-    /// Taylor-truncated Gaussian magnitude; −3 dB at ω = 1 (see the module docs).
+    /// Taylor-truncated Gaussian magnitude; half power at ω = 1 (see the module docs).
     Gaussian,
-    /// Papoulis optimum-L (steepest monotonic); −3 dB at ω = 1.
+    /// Papoulis optimum-L (steepest monotonic); half power at ω = 1.
     Legendre,
     /// Any left-half-plane poles (conjugate pairs), normalized rad/s.
     Poles(Vec<Complex64>),
@@ -421,8 +434,8 @@ impl Prototype {
                     break;
                 }
             }
-            if converged && best.map_or(true, |b| w > b) {
-                best = Some(w);
+            if converged {
+                best = Some(best.map_or(w, |b: f64| b.max(w)));
             }
         }
         match best {
@@ -465,7 +478,7 @@ impl Prototype {
     }
 
     /// Cohn's estimate of the mid-band dissipation loss, 4.343·Σ_{i=1..n} g_i / q0 dB, for
-    /// resonators of normalized unloaded q `q0` (on this prototype's frequency scale) [8].
+    /// resonators of normalized unloaded q `q0` (on this prototype's frequency scale) \[8\].
     /// Returns NaN when `q0` is not positive (or NaN); 0 for an infinite q0.
     pub fn cohn_loss_db(&self, q0: f64) -> f64 {
         if q0.is_nan() || q0 <= 0.0 {
@@ -491,7 +504,7 @@ impl Prototype {
 // Closed forms
 // ---------------------------------------------------------------------------------------------
 
-/// Butterworth g-values by the closed form of Matthaei, Young & Jones [2], eq. 4.05-1:
+/// Butterworth g-values by the closed form of Matthaei, Young & Jones \[2\], eq. 4.05-1:
 /// g0 = g(n+1) = 1, g_k = 2·sin((2k − 1)π/(2n)). Empty when `n` is 0.
 pub fn butterworth_g(n: usize) -> Vec<f64> {
     if n == 0 {
@@ -503,7 +516,7 @@ pub fn butterworth_g(n: usize) -> Vec<f64> {
     g
 }
 
-/// Chebyshev g-values by the closed form of Matthaei, Young & Jones [2], eq. 4.05-2, with
+/// Chebyshev g-values by the closed form of Matthaei, Young & Jones \[2\], eq. 4.05-2, with
 /// β = ln coth(L_Ar/17.37) (17.37 taken exactly as 40/ln 10), γ = sinh(β/(2n)),
 /// a_k = sin((2k−1)π/(2n)), b_k = γ² + sin²(kπ/n), g1 = 2a1/γ,
 /// g_k = 4a_(k−1)a_k/(b_(k−1)g_(k−1)), g(n+1) = 1 (n odd) or coth²(β/4) (n even).
@@ -654,7 +667,12 @@ fn legendre_l(n: usize) -> Vec<f64> {
     }
     // Antiderivative I(x), then L(w) = I(2w − 1) − I(−1).
     let mut anti = vec![0.0];
-    anti.extend(integrand.iter().enumerate().map(|(j, c)| c / (j + 1) as f64));
+    anti.extend(
+        integrand
+            .iter()
+            .enumerate()
+            .map(|(j, c)| c / (j + 1) as f64),
+    );
     let mut l: Vec<f64> = Vec::new();
     for c in anti.iter().rev() {
         // l ← l·(2w − 1) + c
@@ -679,7 +697,7 @@ fn magnitude_poles(den: &[f64]) -> Result<Vec<Complex64>> {
     let mut poles = Vec::new();
     for x in poly_roots(den)? {
         let p = -(-x).sqrt();
-        if !(p.re < -1e-12 * p.norm()) {
+        if p.re.is_nan() || p.re >= -1e-12 * p.norm() {
             return Err(Error::numerical(format!(
                 "poles: a root of the magnitude denominator lies on the jω axis (x = {x})"
             )));
@@ -705,7 +723,7 @@ fn validate_poles(poles: &[Complex64]) -> Result<Vec<Complex64>> {
                 "finite complex numbers",
             ));
         }
-        if !(p.re < 0.0) {
+        if p.re >= 0.0 {
             return Err(Error::invalid(
                 "poles",
                 format!("pole {} = {p}", i + 1),
@@ -716,14 +734,21 @@ fn validate_poles(poles: &[Complex64]) -> Result<Vec<Complex64>> {
     pair_conjugates(poles, 1e-9).map_err(|i| {
         Error::invalid(
             "poles",
-            format!("pole {} = {}", i + 1, poles.get(i).copied().unwrap_or_default()),
+            format!(
+                "pole {} = {}",
+                i + 1,
+                poles.get(i).copied().unwrap_or_default()
+            ),
             "complex poles in conjugate pairs (to a relative 1e-9)",
         )
     })
 }
 
 /// Make a root set exactly conjugate-symmetric; `Err(index)` of a root without a partner.
-fn pair_conjugates(roots: &[Complex64], rel_tol: f64) -> std::result::Result<Vec<Complex64>, usize> {
+fn pair_conjugates(
+    roots: &[Complex64],
+    rel_tol: f64,
+) -> std::result::Result<Vec<Complex64>, usize> {
     let mut out = Vec::with_capacity(roots.len());
     let mut upper = Vec::new();
     let mut lower = Vec::new();
@@ -744,7 +769,7 @@ fn pair_conjugates(roots: &[Complex64], rel_tol: f64) -> std::result::Result<Vec
                 continue;
             }
             let d = (u - l.conj()).norm();
-            if best.map_or(true, |(_, bd)| d < bd) {
+            if best.is_none() || best.is_some_and(|(_, bd)| d < bd) {
                 best = Some((j, d));
             }
         }
@@ -766,7 +791,10 @@ fn pair_conjugates(roots: &[Complex64], rel_tol: f64) -> std::result::Result<Vec
 }
 
 fn min_abs_re(poles: &[Complex64]) -> f64 {
-    poles.iter().map(|p| p.re.abs()).fold(f64::INFINITY, f64::min)
+    poles
+        .iter()
+        .map(|p| p.re.abs())
+        .fold(f64::INFINITY, f64::min)
 }
 
 fn geometric_mean_magnitude(poles: &[Complex64]) -> f64 {
@@ -925,15 +953,12 @@ fn synthesize(poles: &[Complex64]) -> Result<Synthesis> {
     }
     let unit: Vec<Complex64> = poles.iter().map(|p| p / w0).collect();
     let st = structure(&unit, w0)?;
-    if std::env::var("PROBE").is_ok() { eprintln!("k2 {:e} origin {} touching {:?} free {:?}", st.k2, st.origin, st.touching, st.free); }
 
     // Double-double stage: E and F made consistent (F(s)F(−s) + K² = E(s)E(−s)) to ~1e-32,
     // then expanded. The g-values are ill-conditioned in the polynomial coefficients (about a
     // decade per order), not in the roots: f64 coefficients alone lose 1e-9 by order 10.
     let (e_dd, f_dd, zeros) = consistent_pair(&unit, &st)?;
-    let num: Vec<Dd> = e_dd.iter().zip(&f_dd).map(|(&a, &b)| a + b).collect();
-    let den: Vec<Dd> = e_dd.iter().zip(&f_dd).take(n).map(|(&a, &b)| a - b).collect();
-    let unit_g = cauer(num, den, n)?;
+    let unit_g = ladder_from_pair(&e_dd, &f_dd)?;
 
     // Internal check: the ladder must reproduce K/|E| of the poles given.
     let k = st.k2.sqrt();
@@ -1024,7 +1049,10 @@ fn structure(unit: &[Complex64], w0: f64) -> Result<Structure> {
 /// The forced roots, K² and the free roots are refined by Newton's method in double-double on
 /// P(x) = |E(jω)|² of the poles given; F is built from them; E is then rebuilt from the roots of
 /// F(s)F(−s) + K² next to the poles given (they move by ~1e-16 where the structure was forced).
-fn consistent_pair(unit: &[Complex64], st: &Structure) -> Result<(Vec<Dd>, Vec<Dd>, Vec<Complex64>)> {
+fn consistent_pair(
+    unit: &[Complex64],
+    st: &Structure,
+) -> Result<(Vec<Dd>, Vec<Dd>, Vec<Complex64>)> {
     let n = unit.len();
     let p = dd_magnitude_poly(unit);
     let mut zeros = Vec::with_capacity(n);
@@ -1123,8 +1151,7 @@ fn consistent_pair(unit: &[Complex64], st: &Structure) -> Result<(Vec<Dd>, Vec<D
         }
         let r = cdd_newton(&h, Cdd::from(pole));
         let moved = (r.to_c64() - pole).norm();
-        if std::env::var("PROBE").is_ok() { eprintln!("pole {pole} m={m} moved {moved:.3e}"); }
-        if !(moved <= 1e-6 * pole.norm()) {
+        if moved.is_nan() || moved > 1e-6 * pole.norm() {
             return Err(Error::numerical(format!(
                 "poles: the reflection structure found does not fit the pole {pole} \
                  (it would move by {moved:.3e})"
@@ -1156,13 +1183,68 @@ fn pole_groups(poles: &[Complex64]) -> Vec<(Complex64, usize)> {
     groups
 }
 
-/// Continued-fraction expansion at s = ∞ of num/den (deg num = n, deg den = n − 1), in
-/// double-double: returns [1, g1, …, gn, g(n+1)].
-fn cauer(mut a: Vec<Dd>, mut b: Vec<Dd>, n: usize) -> Result<Vec<f64>> {
-    let mut g = Vec::with_capacity(n + 2);
-    g.push(1.0);
-    for step in 0..n {
-        let m = n - step; // deg a; deg b = m − 1
+/// The ladder \[1, g1, …, gn, g(n+1)\] from E and F (unit scale, double-double).
+///
+/// Each step of the continued fraction amplifies the rounding left in the data (by up to ~1e3
+/// for extreme pole sets), so the expansion is split: g1 … g⌈n/2⌉ come from
+/// Z_in = (E + F)/(E − F) at the source, the rest from the load end, where S22 = −F(−s)/E and
+/// Z_out/R_L = (E + F₂)/(E − F₂) with F₂(s) = −F(−s). The load itself comes from DC, where the
+/// ladder is just the two resistors: R_L = Z_in(0) = (E(0) + F(0))/(E(0) − F(0)).
+fn ladder_from_pair(e: &[Dd], f: &[Dd]) -> Result<Vec<f64>> {
+    let n = e.len() - 1;
+    let front = n.div_ceil(2);
+    let plus = |x: &[Dd], y: &[Dd]| -> Vec<Dd> { x.iter().zip(y).map(|(&a, &b)| a + b).collect() };
+    let minus = |x: &[Dd], y: &[Dd]| -> Vec<Dd> { x.iter().zip(y).map(|(&a, &b)| a - b).collect() };
+    let r_load = (e[0] + f[0]) / (e[0] - f[0]);
+    if !(r_load.hi.is_finite() && r_load.hi > 0.0) {
+        return Err(Error::numerical(format!(
+            "poles: the load termination came out as {} (not positive)",
+            r_load.hi
+        )));
+    }
+    let mut g = vec![1.0];
+    let from_source = cauer(plus(e, f), minus(e, f)[..n].to_vec(), front)?;
+    g.extend(from_source.iter().map(|v| v.to_f64()));
+    // Load end: for n odd the last element is a series inductor (expand Z_out/R_L), for n even a
+    // shunt capacitor (expand Y_out·R_L); the top coefficient of the other polynomial cancels.
+    let f2: Vec<Dd> = f
+        .iter()
+        .enumerate()
+        .map(|(k, &c)| if k % 2 == 0 { -c } else { c })
+        .collect();
+    let (num, den) = if n % 2 == 1 {
+        (plus(e, &f2), minus(e, &f2))
+    } else {
+        (minus(e, &f2), plus(e, &f2))
+    };
+    let back = cauer(num, den[..n].to_vec(), n - front)?;
+    // The k-th value from the load end sits at position n + 1 − k; series positions (odd) are
+    // impedances (× R_L), shunt positions (even) admittances (÷ R_L).
+    let mut tail = vec![0.0; n - front];
+    for (k, v) in back.iter().enumerate() {
+        let pos = n - k;
+        let scaled = if pos % 2 == 1 {
+            *v * r_load
+        } else {
+            *v / r_load
+        };
+        tail[pos - front - 1] = scaled.to_f64();
+    }
+    g.extend(tail);
+    g.push(if n % 2 == 1 {
+        (Dd::ONE / r_load).to_f64()
+    } else {
+        r_load.to_f64()
+    });
+    Ok(g)
+}
+
+/// `steps` terms of the continued-fraction expansion at s = ∞ of a/b (deg a = m,
+/// deg b = m − 1), in double-double.
+fn cauer(mut a: Vec<Dd>, mut b: Vec<Dd>, steps: usize) -> Result<Vec<Dd>> {
+    let mut g = Vec::with_capacity(steps);
+    for step in 0..steps {
+        let m = a.len() - 1; // deg a; deg b = m − 1
         let gk = a[m] / b[m - 1];
         if !(gk.hi.is_finite() && gk.hi > 0.0) {
             return Err(Error::numerical(format!(
@@ -1179,24 +1261,16 @@ fn cauer(mut a: Vec<Dd>, mut b: Vec<Dd>, n: usize) -> Result<Vec<f64>> {
             r[i] = a[i] - gk * b[i - 1];
         }
         if m >= 2 {
-            if std::env::var("PROBE").is_ok() { eprintln!("step {step}: dropped {:.3e} of {:.3e}", r[m-1].hi, a[m-1].hi.abs()); }
             r.truncate(m - 1);
         }
-        g.push(gk.to_f64());
+        g.push(gk);
         a = b;
         b = r;
     }
-    let last = (a[0] / b[0]).to_f64();
-    if !(last.is_finite() && last > 0.0) {
-        return Err(Error::numerical(format!(
-            "poles: the load termination came out as {last} (not positive)"
-        )));
-    }
-    g.push(last);
     Ok(g)
 }
 
-/// S21 of the series-inductor-first ladder [1, g1, …, gn, g(n+1)] at complex frequency s.
+/// S21 of the series-inductor-first ladder \[1, g1, …, gn, g(n+1)\] at complex frequency s.
 fn ladder_s21(g: &[f64], s: Complex64) -> Complex64 {
     let n = g.len().saturating_sub(2);
     let one = Complex64::new(1.0, 0.0);
@@ -1226,12 +1300,12 @@ fn check_ladder(g: &[f64], poles: &[Complex64], k: f64) -> Result<()> {
         let want = k / mag2(poles, w).sqrt();
         let got = ladder_s21(g, Complex64::new(0.0, w)).norm();
         let dev = (got / want - 1.0).abs();
-        if !(dev <= worst) {
+        if dev.is_nan() || dev > worst {
             worst = dev;
             worst_w = w;
         }
     }
-    if !(worst <= SANITY) {
+    if worst.is_nan() || worst > SANITY {
         return Err(Error::numerical(format!(
             "poles: the synthesized ladder deviates from K/E by a relative {worst:.3e} at \
              w = {worst_w:.4} (unit scale); expected below {SANITY:e}"
@@ -1345,8 +1419,9 @@ fn poly_roots(coeffs: &[f64]) -> Result<Vec<Complex64>> {
         m[(i, i - 1)] = 1.0;
     }
     balance(&mut m);
-    let schur = Schur::try_new(m, f64::EPSILON, 100_000)
-        .ok_or_else(|| Error::numerical("polynomial roots: eigenvalue iteration did not converge"))?;
+    let schur = Schur::try_new(m, f64::EPSILON, 100_000).ok_or_else(|| {
+        Error::numerical("polynomial roots: eigenvalue iteration did not converge")
+    })?;
     for z in schur.complex_eigenvalues().iter() {
         roots.push(newton_polish(&d, *z) * scale);
     }
@@ -1362,7 +1437,7 @@ fn newton_polish(d: &[f64], mut z: Complex64) -> Complex64 {
         let step = p / dp;
         let next = z - step;
         let (pn, dpn) = horner_with_deriv(d, next);
-        if !(pn.norm() < p.norm()) {
+        if pn.norm().is_nan() || pn.norm() >= p.norm() {
             break;
         }
         z = next;
@@ -1418,7 +1493,7 @@ fn balance(m: &mut DMatrix<f64>) {
 }
 
 // ---------------------------------------------------------------------------------------------
-// Double-double arithmetic (hi + lo, ~32 significant digits; Dekker 1971, the "QD" algorithms)
+// Double-double arithmetic (hi + lo, ~32 significant digits; Dekker 1971, ref. 10)
 // ---------------------------------------------------------------------------------------------
 
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
@@ -1452,7 +1527,7 @@ impl Dd {
     }
 
     fn sqrt(self) -> Dd {
-        if !(self.hi > 0.0) {
+        if self.hi.is_nan() || self.hi <= 0.0 {
             return Dd::from(self.hi.sqrt().max(0.0));
         }
         let q = Dd::from(self.hi.sqrt());
@@ -1815,7 +1890,10 @@ mod tests {
         // MAX_ORDER); the engine reaches ~1e-14.
         let mut worst: f64 = 0.0;
         for n in 1..=MAX_ORDER {
-            let e = max_rel(&Family::Butterworth.prototype(n).unwrap().g, &butterworth_g(n));
+            let e = max_rel(
+                &Family::Butterworth.prototype(n).unwrap().g,
+                &butterworth_g(n),
+            );
             assert!(e <= 1e-9, "butterworth n={n}: {e:e}");
             worst = worst.max(e);
             for ripple_db in [0.001, 0.01, 0.1, 0.2, 0.5, 1.0, 2.0, 3.0] {
@@ -1855,22 +1933,31 @@ mod tests {
 
     // ----- 3. scipy golden data --------------------------------------------------------------
 
-    type Case = (String, String, usize);
+    /// One scipy case: (family, ripple, order), its poles and its (w, dB) response.
+    struct Golden {
+        key: (String, String, usize),
+        poles: Vec<Complex64>,
+        mags: Vec<(f64, f64)>,
+    }
 
-    fn scipy_cases() -> Vec<(Case, Vec<Complex64>, Vec<(f64, f64)>)> {
-        let mut out: Vec<(Case, Vec<Complex64>, Vec<(f64, f64)>)> = Vec::new();
+    fn scipy_cases() -> Vec<Golden> {
+        let mut out: Vec<Golden> = Vec::new();
         for r in rows(SCIPY) {
             if r[0] == "w3db" {
                 continue;
             }
             let key = (r[1].to_string(), r[2].to_string(), num(r[3]) as usize);
-            if out.last().map(|(k, _, _)| k != &key).unwrap_or(true) {
-                out.push((key.clone(), Vec::new(), Vec::new()));
+            if out.last().map(|g| g.key != key).unwrap_or(true) {
+                out.push(Golden {
+                    key: key.clone(),
+                    poles: Vec::new(),
+                    mags: Vec::new(),
+                });
             }
             let last = out.last_mut().unwrap();
             match r[0] {
-                "pole" => last.1.push(c(num(r[4]), num(r[5]))),
-                "mag" => last.2.push((num(r[4]), num(r[5]))),
+                "pole" => last.poles.push(c(num(r[4]), num(r[5]))),
+                "mag" => last.mags.push((num(r[4]), num(r[5]))),
                 other => panic!("unknown row kind {other}"),
             }
         }
@@ -1884,7 +1971,12 @@ mod tests {
         let cases = scipy_cases();
         assert_eq!(cases.len(), 6 * MAX_ORDER);
         let (mut worst_pole, mut worst_tf, mut worst_ladder) = (0.0f64, 0.0f64, 0.0f64);
-        for ((fam, ripple, n), scipy_poles, mags) in &cases {
+        for Golden {
+            key: (fam, ripple, n),
+            poles: scipy_poles,
+            mags,
+        } in &cases
+        {
             let f = family(fam, num(ripple));
             let p = f.prototype(*n).unwrap();
             assert_eq!(p.poles.len(), *n);
@@ -1897,7 +1989,10 @@ mod tests {
                     .fold(f64::INFINITY, f64::min);
                 // Tolerance: 1e-12 relative: both sides are polished roots of the same
                 // polynomials (~1e-15); a wrong pole would be off by far more.
-                assert!(d <= 1e-12 * sp.norm(), "{fam} {ripple} n={n}: pole {sp} off by {d:e}");
+                assert!(
+                    d <= 1e-12 * sp.norm(),
+                    "{fam} {ripple} n={n}: pole {sp} off by {d:e}"
+                );
                 worst_pole = worst_pole.max(d / sp.norm());
             }
             assert_eq!(mags.len(), 60);
@@ -1905,14 +2000,21 @@ mod tests {
                 if golden < -100.0 {
                     continue;
                 }
-                // Tolerance 1e-6 dB (project requirement); agreement is ~1e-12 dB.
+                // Tolerance 1e-6 dB, the accuracy asked of prototype responses; agreement is
+                // ~1e-12 dB, so the margin is wide.
                 let tf = (db(p.s21(w)) - golden).abs();
-                assert!(tf <= 1e-6, "{fam} {ripple} n={n} w={w}: s21 off by {tf:e} dB");
+                assert!(
+                    tf <= 1e-6,
+                    "{fam} {ripple} n={n} w={w}: s21 off by {tf:e} dB"
+                );
                 assert!((-p.loss_db(w) - golden).abs() <= 1e-6);
                 // The synthesized ladder, analysed on its own: this is the check that the
                 // Darlington synthesis realizes the response.
                 let lad = (db(ladder(&p.g, w, 0.0)) - golden).abs();
-                assert!(lad <= 1e-6, "{fam} {ripple} n={n} w={w}: ladder off by {lad:e} dB");
+                assert!(
+                    lad <= 1e-6,
+                    "{fam} {ripple} n={n} w={w}: ladder off by {lad:e} dB"
+                );
                 worst_tf = worst_tf.max(tf);
                 worst_ladder = worst_ladder.max(lad);
             }
@@ -1934,7 +2036,11 @@ mod tests {
                 .frequency_at_loss(HALF_POWER_DB)
                 .unwrap();
             // Tolerance 1e-10 relative: both are root-polished to ~1e-14.
-            assert!(((w3 - num(r[4])) / num(r[4])).abs() <= 1e-10, "n={n}: {w3} vs {}", r[4]);
+            assert!(
+                ((w3 - num(r[4])) / num(r[4])).abs() <= 1e-10,
+                "n={n}: {w3} vs {}",
+                r[4]
+            );
             seen += 1;
         }
         assert_eq!(seen, MAX_ORDER);
@@ -1948,9 +2054,15 @@ mod tests {
             let p = Family::Bessel.prototype(n).unwrap();
             let tau: f64 = p.poles.iter().map(|q| -q.re / q.norm_sqr()).sum();
             assert!((tau - 1.0).abs() <= 1e-12, "n={n}: pole delay {tau}");
-            assert!((p.g[n + 1] - 1.0).abs() <= 1e-12, "n={n}: equal terminations");
+            assert!(
+                (p.g[n + 1] - 1.0).abs() <= 1e-12,
+                "n={n}: equal terminations"
+            );
             let half_sum: f64 = p.g[1..=n].iter().sum::<f64>() / 2.0;
-            assert!((half_sum - 1.0).abs() <= 1e-11, "n={n}: ladder delay {half_sum}");
+            assert!(
+                (half_sum - 1.0).abs() <= 1e-11,
+                "n={n}: ladder delay {half_sum}"
+            );
         }
     }
 
@@ -1974,7 +2086,11 @@ mod tests {
             for (i, &v) in t.iter().enumerate() {
                 let ours = p.g[i + 1] * w3;
                 // Tolerance: the table's 4 decimals (half a unit).
-                assert!((ours - v).abs() <= 0.5e-4 + 1e-12, "n={n} g{}: {ours} vs {v}", i + 1);
+                assert!(
+                    (ours - v).abs() <= 0.5e-4 + 1e-12,
+                    "n={n} g{}: {ours} vs {v}",
+                    i + 1
+                );
             }
         }
     }
@@ -1990,13 +2106,25 @@ mod tests {
             assert!(last.abs() <= 1e-12, "{} n={n}: loss at DC {last}", f.name());
             for i in 1..=2000 {
                 let l = p.loss_db(i as f64 * 0.0025);
-                assert!(l > last, "{} n={n}: not monotonic at w = {}", f.name(), i as f64 * 0.0025);
+                assert!(
+                    l > last,
+                    "{} n={n}: not monotonic at w = {}",
+                    f.name(),
+                    i as f64 * 0.0025
+                );
                 last = l;
             }
             let edge = p.loss_db(1.0);
-            assert!((edge - HALF_POWER_DB).abs() <= 1e-9, "{} n={n}: {edge} dB at w = 1", f.name());
+            assert!(
+                (edge - HALF_POWER_DB).abs() <= 1e-9,
+                "{} n={n}: {edge} dB at w = 1",
+                f.name()
+            );
             assert!((p.frequency_at_loss(HALF_POWER_DB).unwrap() - 1.0).abs() <= 1e-12);
-            assert!((p.g[n + 1] - 1.0).abs() <= 1e-12, "peak at DC: equal terminations");
+            assert!(
+                (p.g[n + 1] - 1.0).abs() <= 1e-12,
+                "peak at DC: equal terminations"
+            );
         }
     }
 
@@ -2008,7 +2136,9 @@ mod tests {
             let p = Family::Gaussian.prototype(n).unwrap();
             let (mut lo, mut hi) = (0.1, 2.0);
             let sum = |a: f64, x: f64| {
-                (0..=n).fold((0.0, 1.0), |(s, t), k| (s + t, t * a * x / (k + 1) as f64)).0
+                (0..=n)
+                    .fold((0.0, 1.0), |(s, t), k| (s + t, t * a * x / (k + 1) as f64))
+                    .0
             };
             for _ in 0..200 {
                 let mid = 0.5 * (lo + hi);
@@ -2046,7 +2176,11 @@ mod tests {
             let l = legendre_l(i + 1);
             assert_eq!(l.len(), k.len());
             for (a, b) in l.iter().zip(k.iter()) {
-                assert!((a - b).abs() <= 1e-11 * b.abs().max(1.0), "n={}: {l:?}", i + 1);
+                assert!(
+                    (a - b).abs() <= 1e-11 * b.abs().max(1.0),
+                    "n={}: {l:?}",
+                    i + 1
+                );
             }
         }
         // Optimum-L is the steepest monotonic response at the cutoff (Papoulis): steeper than
@@ -2109,9 +2243,15 @@ mod tests {
     fn prototype_rejects_bad_input() {
         let kind = |r: Result<Prototype>| r.unwrap_err().kind();
         let msg = |r: Result<Prototype>| r.unwrap_err().message().to_string();
-        assert_eq!(kind(Family::Butterworth.prototype(0)), ErrorKind::InvalidValue);
+        assert_eq!(
+            kind(Family::Butterworth.prototype(0)),
+            ErrorKind::InvalidValue
+        );
         assert!(msg(Family::Butterworth.prototype(0)).contains("order: 0"));
-        assert_eq!(kind(Family::Bessel.prototype(MAX_ORDER + 1)), ErrorKind::Unsupported);
+        assert_eq!(
+            kind(Family::Bessel.prototype(MAX_ORDER + 1)),
+            ErrorKind::Unsupported
+        );
         assert!(msg(Family::Legendre.prototype(13)).contains("1 to 12"));
         for bad in [0.0, 0.0005, 3.5, -1.0, f64::NAN, f64::INFINITY] {
             let r = Family::Chebyshev { ripple_db: bad }.prototype(3);
@@ -2135,12 +2275,18 @@ mod tests {
             assert!(msg(r).contains("poles") || bad.is_empty());
         }
         let too_many = vec![lhp; MAX_ORDER + 1];
-        assert_eq!(kind(Prototype::from_poles(&too_many)), ErrorKind::Unsupported);
+        assert_eq!(
+            kind(Prototype::from_poles(&too_many)),
+            ErrorKind::Unsupported
+        );
         let wrong_order = Family::Poles(vec![lhp, lhp]).prototype(3);
         assert!(msg(wrong_order).contains("2 (the number of poles given)"));
         let p = Family::Butterworth.prototype(3).unwrap();
         for bad in [0.0, -3.0, f64::NAN, f64::INFINITY] {
-            assert_eq!(p.frequency_at_loss(bad).unwrap_err().kind(), ErrorKind::InvalidValue);
+            assert_eq!(
+                p.frequency_at_loss(bad).unwrap_err().kind(),
+                ErrorKind::InvalidValue
+            );
         }
         assert!(p.q_min(0.0).is_nan() && p.cohn_loss_db(-1.0).is_nan());
         assert!(p.coupling_and_q(f64::NAN).1[0].is_nan());
@@ -2152,8 +2298,11 @@ mod tests {
         for n in [3, 6, 9] {
             let named = Family::Bessel.prototype(n).unwrap();
             // Poles given with a 1e-13 conjugate mismatch are paired and give the same ladder.
-            let poles: Vec<Complex64> =
-                named.poles.iter().map(|p| p + c(0.0, 1e-13 * p.im.signum())).collect();
+            let poles: Vec<Complex64> = named
+                .poles
+                .iter()
+                .map(|p| p + c(0.0, 1e-13 * p.im.signum()))
+                .collect();
             let custom = Family::Poles(poles).prototype(n).unwrap();
             assert!(max_rel(&custom.g, &named.g) <= 1e-9, "n={n}");
         }
@@ -2163,10 +2312,54 @@ mod tests {
         assert_eq!(p.order, 4);
         let scaled: Vec<Complex64> = p.poles.iter().map(|z| z * 1e4).collect();
         let q = Prototype::from_poles(&scaled).unwrap();
-        let g_back: Vec<f64> = q.g.iter().enumerate().map(|(i, &v)| {
-            if i == 0 || i == 5 { v } else { v * 1e4 }
-        }).collect();
+        let g_back: Vec<f64> =
+            q.g.iter()
+                .enumerate()
+                .map(|(i, &v)| if i == 0 || i == 5 { v } else { v * 1e4 })
+                .collect();
         assert!(max_rel(&g_back, &p.g) <= 1e-12);
+    }
+
+    #[test]
+    fn prototype_random_poles_synthesize_or_fail_cleanly() {
+        // Random pole sets (xorshift64 from a fixed starting state), orders 1–12, pole Q up to ~50: every
+        // result is either a ladder that the test's own cascade confirms, or Error::numerical;
+        // never a panic. Tolerance 1e-7 relative: the deviation the library promises at most.
+        let mut state: u64 = 0x9E37_79B9_7F4A_7C15;
+        let mut rnd = || {
+            state ^= state << 13;
+            state ^= state >> 7;
+            state ^= state << 17;
+            (state >> 11) as f64 / (1u64 << 53) as f64
+        };
+        let mut failures = 0;
+        for _ in 0..300 {
+            let n = 1 + (rnd() * MAX_ORDER as f64) as usize;
+            let mut poles = Vec::new();
+            while poles.len() < n {
+                let re = -(0.02 + 2.0 * rnd());
+                if n - poles.len() >= 2 && rnd() < 0.7 {
+                    let im = 3.0 * rnd();
+                    poles.extend([c(re, im), c(re, -im)]);
+                } else {
+                    poles.push(c(re, 0.0));
+                }
+            }
+            match Prototype::from_poles(&poles) {
+                Ok(p) => {
+                    for i in 0..60 {
+                        let w = 0.01 * 1.12f64.powi(i);
+                        let rel = ladder(&p.g, w, 0.0).norm() / p.s21(w).norm() - 1.0;
+                        assert!(rel.abs() <= 1e-7, "{poles:?} w={w}: {rel:e}");
+                    }
+                }
+                Err(e) => {
+                    assert_eq!(e.kind(), ErrorKind::Numerical, "{poles:?}: {e}");
+                    failures += 1;
+                }
+            }
+        }
+        assert!(failures <= 3, "{failures} of 300 random pole sets failed");
     }
 
     #[test]
@@ -2177,7 +2370,10 @@ mod tests {
         let mut g = p.g.clone();
         assert!(check_ladder(&g, &p.poles, p.gain).is_ok());
         g[3] *= 1.0 + 1e-5;
-        assert_eq!(check_ladder(&g, &p.poles, p.gain).unwrap_err().kind(), ErrorKind::Numerical);
+        assert_eq!(
+            check_ladder(&g, &p.poles, p.gain).unwrap_err().kind(),
+            ErrorKind::Numerical
+        );
     }
 
     #[test]
@@ -2217,14 +2413,24 @@ mod tests {
             let ideal = f.prototype(n).unwrap();
             let d = fraction * min_abs_re(&ideal.poles);
             let pre = ideal.predistorted(d).unwrap();
-            assert!(pre.poles.iter().zip(&ideal.poles).all(|(a, b)| (a.re - b.re - d).abs() < 1e-15));
+            assert!(pre
+                .poles
+                .iter()
+                .zip(&ideal.poles)
+                .all(|(a, b)| (a.re - b.re - d).abs() < 1e-15));
             // At DC the ladder is just the two resistors: |S21(0)| = 2√R_L/(1 + R_L). Where the
             // predistorted response no longer peaks at DC the terminations are unequal.
             let rl = pre.load_resistance();
             let s0 = pre.s21(0.0).norm();
-            assert!((2.0 * rl.sqrt() / (1.0 + rl) - s0).abs() <= 1e-12, "{f:?}: DC transmission");
+            assert!(
+                (2.0 * rl.sqrt() / (1.0 + rl) - s0).abs() <= 1e-12,
+                "{f:?}: DC transmission"
+            );
             if s0 < 1.0 - 1e-6 {
-                assert!((rl - 1.0).abs() > 1e-3, "{f:?}: terminations should be unequal");
+                assert!(
+                    (rl - 1.0).abs() > 1e-3,
+                    "{f:?}: terminations should be unequal"
+                );
             }
             assert!(pre.dissipation_loss_db > 0.0);
             let mut flat = Vec::new();
@@ -2240,10 +2446,19 @@ mod tests {
             }
             let (lo, hi) = flat
                 .iter()
-                .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| (a.min(v), b.max(v)));
+                .fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), &v| {
+                    (a.min(v), b.max(v))
+                });
             // Tolerance 1e-6 dB (project requirement) on the flatness of the difference.
-            assert!(hi - lo <= 1e-6, "{f:?} n={n}: loss not flat, spread {:e} dB", hi - lo);
-            assert!((flat[0] - pre.dissipation_loss_db).abs() <= 1e-6, "{f:?}: reported loss");
+            assert!(
+                hi - lo <= 1e-6,
+                "{f:?} n={n}: loss not flat, spread {:e} dB",
+                hi - lo
+            );
+            assert!(
+                (flat[0] - pre.dissipation_loss_db).abs() <= 1e-6,
+                "{f:?}: reported loss"
+            );
             if f == Family::Butterworth && n == 4 {
                 println!(
                     "Butterworth n=4, d = min|Re p|/3 = {d:.6}: flat loss {:.6} dB, g = {:?}",
@@ -2261,8 +2476,14 @@ mod tests {
         assert_eq!(e.kind(), ErrorKind::Unrealizable);
         assert!(e.message().contains("dissipation") && e.message().contains("q0 above 2.613"));
         assert!(e.hint().is_some());
-        assert_eq!(p.predistorted(-0.1).unwrap_err().kind(), ErrorKind::InvalidValue);
-        assert_eq!(p.predistorted(f64::NAN).unwrap_err().kind(), ErrorKind::InvalidValue);
+        assert_eq!(
+            p.predistorted(-0.1).unwrap_err().kind(),
+            ErrorKind::InvalidValue
+        );
+        assert_eq!(
+            p.predistorted(f64::NAN).unwrap_err().kind(),
+            ErrorKind::InvalidValue
+        );
         assert!(max_rel(&p.predistorted(0.0).unwrap().g, &p.g) <= 1e-12);
         assert!(p.predistorted(0.9 * sigma).is_ok());
         // Predistorting twice adds up.
@@ -2278,16 +2499,29 @@ mod tests {
         // Cohn 1959: ΔL ≈ 4.343·Σg_i/q0 (first order in d = 1/q0). Checked against the exact DC
         // loss of the dissipated ladder at q0 = 1e4, where the second-order term is ~d·Σg ≈ 1e-3
         // relative (tolerance 1%).
-        for f in [Family::Butterworth, Family::Chebyshev { ripple_db: 0.1 }, Family::Bessel] {
+        for f in [
+            Family::Butterworth,
+            Family::Chebyshev { ripple_db: 0.1 },
+            Family::Bessel,
+        ] {
             for n in [3, 5, 7] {
                 let p = f.prototype(n).unwrap();
                 let q0 = 1e4;
                 let exact = -db(ladder(&p.g, 0.0, 1.0 / q0)) + db(ladder(&p.g, 0.0, 0.0));
                 let cohn = p.cohn_loss_db(q0);
-                assert!(((cohn - exact) / exact).abs() <= 0.01, "{f:?} n={n}: {cohn} vs {exact}");
+                assert!(
+                    ((cohn - exact) / exact).abs() <= 0.01,
+                    "{f:?} n={n}: {cohn} vs {exact}"
+                );
             }
         }
-        assert_eq!(Family::Butterworth.prototype(3).unwrap().cohn_loss_db(f64::INFINITY), 0.0);
+        assert_eq!(
+            Family::Butterworth
+                .prototype(3)
+                .unwrap()
+                .cohn_loss_db(f64::INFINITY),
+            0.0
+        );
     }
 
     #[test]
@@ -2295,8 +2529,16 @@ mod tests {
         for p in [
             Family::Bessel.prototype(5).unwrap(),
             Family::Chebyshev { ripple_db: 0.5 }.prototype(4).unwrap(),
-            Family::Butterworth.prototype(6).unwrap().predistorted(0.1).unwrap(),
-            Family::Gaussian.prototype(3).unwrap().predistorted(0.2).unwrap(),
+            Family::Butterworth
+                .prototype(6)
+                .unwrap()
+                .predistorted(0.1)
+                .unwrap(),
+            Family::Gaussian
+                .prototype(3)
+                .unwrap()
+                .predistorted(0.2)
+                .unwrap(),
         ] {
             let r = p.reversed();
             for w in [0.0, 0.3, 0.9, 1.4, 3.0] {
@@ -2318,12 +2560,17 @@ mod tests {
         // the numbers to 1e-15 relative, the rest exactly.
         assert_eq!((back.order, back.poles.len()), (p.order, p.poles.len()));
         assert!(max_rel(&back.g, &p.g) <= 1e-15);
-        for (a, b) in back.poles.iter().chain(&back.reflection_zeros).zip(p.poles.iter().chain(&p.reflection_zeros)) {
+        for (a, b) in back
+            .poles
+            .iter()
+            .chain(&back.reflection_zeros)
+            .zip(p.poles.iter().chain(&p.reflection_zeros))
+        {
             assert!((a - b).norm() <= 1e-15 * b.norm().max(1.0));
         }
         assert!(((back.gain - p.gain) / p.gain).abs() <= 1e-15);
-        let f: Family = serde_json::from_str(&serde_json::to_string(&Family::Legendre).unwrap())
-            .unwrap();
+        let f: Family =
+            serde_json::from_str(&serde_json::to_string(&Family::Legendre).unwrap()).unwrap();
         assert_eq!(f, Family::Legendre);
     }
 }

@@ -20,6 +20,66 @@ pub struct Ladder {
     source_ohm: f64,
     load_ohm: f64,
     stages: Vec<Stage>,
+    /// The stages precompiled for the hot loop (same order as `stages`).
+    fast: Vec<Fast>,
+}
+
+/// A stage reduced to the constants the inner loop needs: no divisions by part values, no
+/// recursion, for the two shapes a crystal ladder is made of.
+#[derive(Debug, Clone, Copy, PartialEq)]
+enum Fast {
+    /// Series: an optional lossless capacitor (1/C, 0 for none) and a crystal without
+    /// spurious modes.
+    SeriesCrystal {
+        inv_cs: f64,
+        rm: f64,
+        lm: f64,
+        inv_cm: f64,
+        c0: f64,
+    },
+    /// Shunt: a lossless capacitor.
+    ShuntCap { c: f64 },
+    /// Anything else: the general branch evaluation of stage `index`.
+    General { index: usize },
+}
+
+fn compile(stages: &[Stage]) -> Vec<Fast> {
+    use super::{Element, Loss};
+    let xtal = |x: &crate::crystal::Crystal, inv_cs: f64| Fast::SeriesCrystal {
+        inv_cs,
+        rm: x.motional.rm_ohm,
+        lm: x.motional.lm_h,
+        inv_cm: 1.0 / x.motional.cm_f,
+        c0: x.c0_f,
+    };
+    stages
+        .iter()
+        .enumerate()
+        .map(|(index, s)| match s {
+            Stage::Series(Branch::Element(Element::Crystal(x))) if x.spurious.is_empty() => {
+                xtal(x, 0.0)
+            }
+            Stage::Series(Branch::Series(parts)) => match parts.as_slice() {
+                [Branch::Element(Element::Capacitor(c, Loss::Lossless)), Branch::Element(Element::Crystal(x))]
+                    if x.spurious.is_empty() =>
+                {
+                    xtal(x, 1.0 / c)
+                }
+                _ => Fast::General { index },
+            },
+            Stage::Shunt(Branch::Element(Element::Capacitor(c, Loss::Lossless))) => {
+                Fast::ShuntCap { c: *c }
+            }
+            _ => Fast::General { index },
+        })
+        .collect()
+}
+
+/// 1/z with one division.
+#[inline(always)]
+fn recip(z: C) -> C {
+    let s = 1.0 / (z.re * z.re + z.im * z.im);
+    C::new(z.re * s, -z.im * s)
 }
 
 type C = Complex64;
@@ -32,10 +92,12 @@ impl Ladder {
     pub fn new(source_ohm: f64, load_ohm: f64, stages: Vec<Stage>) -> Result<Self> {
         require_positive("source resistance", source_ohm)?;
         require_positive("load resistance", load_ohm)?;
+        let fast = compile(&stages);
         Ok(Ladder {
             source_ohm,
             load_ohm,
             stages,
+            fast,
         })
     }
 
@@ -61,24 +123,55 @@ impl Ladder {
         let zero = C::new(0.0, 0.0);
         let (mut a, mut b, mut c, mut d) = (one, zero, zero, one);
         let (mut da, mut db, mut dc, mut dd) = (zero, zero, zero, zero);
-        for s in &self.stages {
-            match s {
-                Stage::Series(br) => {
-                    // [a b; c d]·[1 z; 0 1] = [a, a·z + b; c, c·z + d]
-                    let (z, dz) = br.z_dz(w);
-                    db = da * z + a * dz + db;
-                    dd = dc * z + c * dz + dd;
-                    b += a * z;
-                    d += c * z;
+        let inv_w = 1.0 / w;
+        for f in &self.fast {
+            let (series, z, dz) = match *f {
+                Fast::SeriesCrystal {
+                    inv_cs,
+                    rm,
+                    lm,
+                    inv_cm,
+                    c0,
+                } => {
+                    // Motional branch, C0 across it (see Crystal::z_dz), then the series
+                    // capacitor: x = −1/(ωC), dx/dω = 1/(ω²C).
+                    let zm = C::new(rm, w * lm - inv_cm * inv_w);
+                    let dzm = C::new(0.0, lm + inv_cm * inv_w * inv_w);
+                    let inv = recip(C::new(1.0 - w * c0 * zm.im, w * c0 * zm.re));
+                    let jc0 = C::new(0.0, c0);
+                    let zx = zm * inv;
+                    let dzx = (dzm - jc0 * zm * zm) * inv * inv;
+                    let zc = inv_cs * inv_w;
+                    (
+                        true,
+                        C::new(zx.re, zx.im - zc),
+                        C::new(dzx.re, dzx.im + zc * inv_w),
+                    )
                 }
-                Stage::Shunt(br) => {
-                    // [a b; c d]·[1 0; y 1] = [a + b·y, b; c + d·y, d]
-                    let (y, dy) = br.y_dy(w);
-                    da = da + db * y + b * dy;
-                    dc = dc + dd * y + d * dy;
-                    a += b * y;
-                    c += d * y;
-                }
+                Fast::ShuntCap { c } => (false, C::new(0.0, w * c), C::new(0.0, c)),
+                Fast::General { index } => match &self.stages[index] {
+                    Stage::Series(br) => {
+                        let (z, dz) = br.z_dz(w);
+                        (true, z, dz)
+                    }
+                    Stage::Shunt(br) => {
+                        let (y, dy) = br.y_dy(w);
+                        (false, y, dy)
+                    }
+                },
+            };
+            if series {
+                // [a b; c d]·[1 z; 0 1] = [a, a·z + b; c, c·z + d]
+                db = da * z + a * dz + db;
+                dd = dc * z + c * dz + dd;
+                b += a * z;
+                d += c * z;
+            } else {
+                // [a b; c d]·[1 0; y 1] = [a + b·y, b; c + d·y, d]  (z holds y here)
+                da = da + db * z + b * dz;
+                dc = dc + dd * z + d * dz;
+                a += b * z;
+                c += d * z;
             }
         }
         ([a, b, c, d], [da, db, dc, dd])
@@ -94,7 +187,7 @@ impl Ladder {
         let dr = d * rs;
         let den = ar + b + crr + dr;
         let dden = da * rl + db + dc * (rs * rl) + dd * rs;
-        let inv = den.inv();
+        let inv = recip(den);
         Response {
             f_hz: w / (2.0 * PI),
             s21: inv * (2.0 * (rs * rl).sqrt()),
