@@ -300,6 +300,13 @@ pub(crate) fn predict_ladder(ladder: &Ladder, f0: f64, b3: f64) -> Result<Perfor
 
 fn check_against_spec(design: &mut Design, _b_norm: f64, lp: &LowpassData) {
     let p = &design.performance;
+    if matches!(design.spec.family, ResponseFamily::EqualC) && p.ripple_db > 1.0 {
+        design.warnings.push(format!(
+            "an equal-capacitor ladder of order {} has {:.1} dB of passband ripple (inherent with equal couplings); a chebyshev design with unequal couplings avoids it",
+            design.order(),
+            p.ripple_db
+        ));
+    }
     let (got, level) = match design.spec.bandwidth_at {
         BandwidthAt::Db3 => (p.bw_3db_hz, "−3 dB"),
         BandwidthAt::Db6 => (p.bw_6db_hz, "−6 dB"),

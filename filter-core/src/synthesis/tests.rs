@@ -257,3 +257,73 @@ fn design_record_round_trips() {
     assert!(crate::design::Design::from_json(&text.replace("\"schema_version\": 1", "\"schema_version\": 7")).is_err());
     assert!(crate::design::Design::from_json(&text.replace("\"shunt_caps_f\"", "\"shunt_capz\"")).is_err());
 }
+
+mod properties {
+    use super::*;
+    use proptest::prelude::*;
+
+    fn family() -> impl Strategy<Value = ResponseFamily> {
+        prop_oneof![
+            Just(ResponseFamily::Butterworth),
+            (0.01f64..1.0).prop_map(|r| ResponseFamily::Chebyshev { ripple_db: r }),
+            Just(ResponseFamily::Bessel),
+            Just(ResponseFamily::Gaussian),
+            Just(ResponseFamily::Legendre),
+            Just(ResponseFamily::EqualC),
+        ]
+    }
+
+    proptest! {
+        #![proptest_config(ProptestConfig { cases: 24, ..ProptestConfig::default() })]
+
+        /// Valid specs well inside the realizability limit give designs whose exact analysis
+        /// meets the bandwidth (3 %: the slope-parameter method's narrowband error with C0 at
+        /// a tenth of the limit) and, for Chebyshev, the ripple within 0.1 dB.
+        #[test]
+        fn valid_specs_meet_their_bandwidth(
+            fam in family(),
+            n in 2usize..9,
+            fs in 4e6f64..20e6,
+            lm_ms in 5.0f64..30.0,
+            c0_pf in 0.0f64..6.0,
+            frac in 0.02f64..0.1,
+        ) {
+            // Equal couplings from order 5 on give passband dips deeper than 3 dB (inherent to the
+            // equal-element prototype), so a "−3 dB bandwidth" is not defined for them.
+            prop_assume!(!(matches!(fam, ResponseFamily::EqualC) && n >= 5));
+            let x = Crystal::from_fs_lm("x", fs, lm_ms * 1e-3, 0.0, c0_pf * 1e-12).unwrap();
+            let lp = lowpass(&fam, n).unwrap();
+            // From 150 Hz (terminations of a few ohms) up to a tenth of the realizability limit,
+            // and no wider than 5e-4·fs (the narrow IF filters this tool is for).
+            let limit = if c0_pf > 0.0 { bandwidth_limit_hz(&vec![x.clone(); n], &lp.g) } else { f64::INFINITY };
+            let upper = (0.1 * limit * lp.w3).min(5e-4 * fs);
+            prop_assume!(upper > 150.0);
+            let bw = 150.0 + (frac - 0.02) / 0.08 * (upper - 150.0);
+            let d = LadderSpec::identical(fam.clone(), n, bw, BandwidthAt::Db3, &x).synthesize().unwrap();
+            let p = d.performance;
+            prop_assert!((p.bw_3db_hz / bw - 1.0).abs() < 0.03, "{:?} n={} bw {} got {}", fam, n, bw, p.bw_3db_hz);
+            if let ResponseFamily::Chebyshev { ripple_db } = fam {
+                prop_assert!(p.ripple_db < ripple_db + 0.1, "ripple {} for {}", p.ripple_db, ripple_db);
+            }
+            prop_assert!(d.shunt_caps_f.iter().all(|c| c.is_finite() && *c > 0.0));
+            prop_assert!(d.series_caps_f.iter().flatten().all(|c| c.is_finite() && *c > 0.0));
+        }
+
+        /// Specs past the limit, or nonsense, are errors and never panics.
+        #[test]
+        fn invalid_specs_are_errors(
+            fam in family(),
+            n in 0usize..16,
+            over in 1.05f64..50.0,
+            bw_sign in prop_oneof![Just(1.0), Just(-1.0), Just(f64::NAN), Just(0.0)],
+        ) {
+            let x = Crystal::from_fs_lm("x", 9e6, 15e-3, 5.0, 4e-12).unwrap();
+            let nn = n.clamp(1, 12);
+            let lp = lowpass(&fam, nn).unwrap();
+            let limit = bandwidth_limit_hz(&vec![x.clone(); nn], &lp.g);
+            let bw = bw_sign * over * limit * lp.w3 * 1.5;
+            let r = LadderSpec::identical(fam, n, bw, BandwidthAt::Db3, &x).synthesize();
+            prop_assert!(r.is_err());
+        }
+    }
+}
