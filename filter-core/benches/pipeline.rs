@@ -37,5 +37,30 @@ fn analysis(c: &mut Criterion) {
     g.finish();
 }
 
-criterion_group!(benches, analysis);
+fn synthesis(c: &mut Criterion) {
+    use filter_core::design::{BandwidthAt, ResponseFamily};
+    use filter_core::synthesis::LadderSpec;
+    let mut g = c.benchmark_group("synthesis");
+    let crystals: Vec<Crystal> = (0..8)
+        .map(|i| {
+            Crystal::from_fs_lm(&format!("Y{i}"), 9e6 + 7.0 * i as f64 - 25.0, 15e-3, 10.0, 4e-12)
+                .unwrap()
+        })
+        .collect();
+    let mut spec = LadderSpec {
+        family: ResponseFamily::Chebyshev { ripple_db: 0.1 },
+        bandwidth_hz: 2400.0,
+        bandwidth_at: BandwidthAt::Db3,
+        predistort: false,
+        refine: false,
+        crystals,
+    };
+    g.bench_function("slope_parameter_8", |b| b.iter(|| black_box(spec.synthesize().unwrap())));
+    spec.refine = true;
+    g.sample_size(10);
+    g.bench_function("refined_8", |b| b.iter(|| black_box(spec.synthesize().unwrap())));
+    g.finish();
+}
+
+criterion_group!(benches, analysis, synthesis);
 criterion_main!(benches);

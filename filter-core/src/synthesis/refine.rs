@@ -71,7 +71,7 @@ impl Problem<'_> {
 
     fn residual_count(&self) -> usize {
         match self.objective {
-            Objective::Shape => self.omegas.len(),
+            Objective::Shape => self.omegas.len() + 1,
             Objective::Equiripple { .. } => 2 * self.n(),
         }
     }
@@ -96,30 +96,7 @@ impl Problem<'_> {
         let lad = self.ladder(p)?;
         let fc = p[2 * n + 1];
         let l0 = if lossless { 0.0 } else { p[2 * n + 3] };
-        let m = 480;
-        let (lo, hi) = (fc - 0.8 * self.target_b3, fc + 0.8 * self.target_b3);
-        let f: Vec<f64> = (0..m).map(|j| lo + (hi - lo) * j as f64 / (m - 1) as f64).collect();
-        let loss: Vec<f64> = f
-            .iter()
-            .map(|&x| -db(lad.response_w(2.0 * PI * x).s21))
-            .collect();
-        let lmin = loss.iter().cloned().fold(f64::INFINITY, f64::min);
-        // −3 dB crossings by linear interpolation, walking out from the best point.
-        let ibest = loss.iter().position(|&v| v == lmin).unwrap_or(m / 2);
-        let level = lmin + 3.0;
-        let mut a = ibest;
-        while a > 0 && loss[a] < level {
-            a -= 1;
-        }
-        let mut b = ibest;
-        while b + 1 < m && loss[b] < level {
-            b += 1;
-        }
-        if loss[a] < level || loss[b] < level {
-            return Err(Error::numerical("passband left the refinement window"));
-        }
-        let cross = |i: usize, j: usize| f[i] + (level - loss[i]) * (f[j] - f[i]) / (loss[j] - loss[i]);
-        let bw = cross(b, b - 1) - cross(a, a + 1);
+        let (f, loss, a, b, bw) = self.passband(&lad, fc)?;
         // Extrema inside the band, refined by a parabola through three samples.
         let mut maxima = Vec::new();
         let mut minima = Vec::new();
@@ -150,6 +127,38 @@ impl Problem<'_> {
         Ok(())
     }
 
+
+    /// Sample the loss around `fc` and find the −3 dB crossings: (frequencies, loss, index
+    /// of the lower and upper crossing sample, −3 dB width).
+    #[allow(clippy::type_complexity)]
+    fn passband(&self, lad: &Ladder, fc: f64) -> Result<(Vec<f64>, Vec<f64>, usize, usize, f64)> {
+        let m = 480;
+        let (lo, hi) = (fc - 0.8 * self.target_b3, fc + 0.8 * self.target_b3);
+        let f: Vec<f64> = (0..m).map(|j| lo + (hi - lo) * j as f64 / (m - 1) as f64).collect();
+        let loss: Vec<f64> = f
+            .iter()
+            .map(|&x| -db(lad.response_w(2.0 * PI * x).s21))
+            .collect();
+        let lmin = loss.iter().cloned().fold(f64::INFINITY, f64::min);
+        // −3 dB crossings by linear interpolation, walking out from the best point.
+        let ibest = loss.iter().position(|&v| v == lmin).unwrap_or(m / 2);
+        let level = lmin + 3.0;
+        let mut a = ibest;
+        while a > 0 && loss[a] < level {
+            a -= 1;
+        }
+        let mut b = ibest;
+        while b + 1 < m && loss[b] < level {
+            b += 1;
+        }
+        if loss[a] < level || loss[b] < level {
+            return Err(Error::numerical("passband left the refinement window"));
+        }
+        let cross = |i: usize, j: usize| f[i] + (level - loss[i]) * (f[j] - f[i]) / (loss[j] - loss[i]);
+        let bw = cross(b, b - 1) - cross(a, a + 1);
+        Ok((f, loss, a, b, bw))
+    }
+
     fn shape_residuals(&self, p: &[f64], out: &mut DVector<f64>) -> Result<()> {
         let n = self.n();
         let lad = self.ladder(p)?;
@@ -159,6 +168,9 @@ impl Problem<'_> {
             let loss = -db(lad.response_w(2.0 * PI * f).s21);
             out[j] = self.weights[j] * (loss - l0 - self.ideal_db[j]);
         }
+        let (_, _, _, _, bw) = self.passband(&lad, fc)?;
+        // The −3 dB width is pinned: 0.1 % weighs like 0.03 dB of shape error.
+        out[self.omegas.len()] = 30.0 * (bw / self.target_b3 - 1.0);
         if out.iter().any(|v| !v.is_finite()) {
             return Err(Error::numerical("refinement produced non-finite values"));
         }
@@ -221,16 +233,38 @@ pub(super) fn refine(design: &mut Design, lp_used: &LowpassData, b_norm: f64) ->
     let mut ideal = Vec::with_capacity(m);
     for j in 0..m {
         let om = -om_max + 2.0 * om_max * j as f64 / (m - 1) as f64;
-        let l = dissipated_loss_db(&lp.g, d, om.abs());
+        // A hair off DC: the capacitors' impedance is infinite at exactly zero frequency.
+        let l = dissipated_loss_db(&lp.g, d, om.abs().max(1e-9));
         omegas.push(om);
         // The passband counts most; the skirts only hold the shape together.
         weights.push(if l <= 3.5 { 1.0 } else { 0.03 });
         ideal.push(l);
     }
-    let base_loss = dissipated_loss_db(&lp.g, d, 0.0).min(ideal.iter().cloned().fold(f64::INFINITY, f64::min));
+    let base_loss = dissipated_loss_db(&lp.g, d, 1e-9).min(ideal.iter().cloned().fold(f64::INFINITY, f64::min));
     for v in &mut ideal {
         *v -= base_loss;
     }
+    // Pin the −3 dB width of the target shape itself: with dissipation its corners are
+    // rounded and its own −3 dB point lies inside the lossless one.
+    let b_norm = if d > 0.0 {
+        let rel = |w: f64| dissipated_loss_db(&lp.g, d, w.max(1e-9)) - base_loss - 3.0;
+        let (mut a, mut b) = (1e-6, om_max);
+        if rel(a) < 0.0 && rel(b) > 0.0 {
+            for _ in 0..80 {
+                let m = 0.5 * (a + b);
+                if rel(m) < 0.0 {
+                    a = m;
+                } else {
+                    b = m;
+                }
+            }
+            super::nominal_b3(design) / (0.5 * (a + b))
+        } else {
+            b_norm
+        }
+    } else {
+        b_norm
+    };
     let w0 = 2.0 * PI * design.center_hz;
     let before = design.performance;
     let mut p: Vec<f64> = Vec::with_capacity(2 * n + 4);
