@@ -242,9 +242,11 @@ impl LadderSpec {
             warnings,
             refinement: None,
         };
-        design.performance = predict(&design)?;
+        // The −3 dB width asked for (3.000 dB scale), which sizes the analysis windows.
+        let b3_target = b_norm * lp.w3;
+        design.performance = predict_ladder(&design.to_ladder()?, f0, b3_target)?;
         if self.refine {
-            refine::refine(&mut design, &lp_used, b_norm)?;
+            refine::refine(&mut design, &lp_used, b_norm, b3_target)?;
         }
         check_against_spec(&mut design, b_norm, &lp);
         Ok(design)
@@ -295,7 +297,9 @@ pub(crate) fn predict_ladder(ladder: &Ladder, f0: f64, b3: f64) -> Result<Perfor
     // The passband lies within about a bandwidth of the mesh-tuning centre; the skirt search
     // in `evaluate` walks further out for the −60 dB points.
     let half = 2.5 * b3;
-    evaluate(ladder, f0 - half, f0 + half, 1201)
+    // ~120 points per bandwidth: ten or more per ripple at order 12; every crossing and
+    // extremum is then refined on the circuit itself.
+    evaluate(ladder, f0 - half, f0 + half, 601)
 }
 
 fn check_against_spec(design: &mut Design, _b_norm: f64, lp: &LowpassData) {
@@ -599,31 +603,47 @@ pub(crate) fn tune(crystals: &[Crystal], g: &[f64], b_norm: f64, subtract_rm: bo
     let fp_min = crystals.iter().map(|c| c.fp_hz()).fold(f64::INFINITY, f64::min);
     let f_hi = fp_min.min(fs_max * 1.05);
     let span = f_hi - fs_max;
-    // Offsets from fs_max, log-spaced from 1e-9 of the span.
-    let steps = 800;
+    // Offsets from fs_max, log-spaced from 1e-9 of the span (13 % steps); the margin is
+    // smooth and rises then falls, so a coarse scan finds the first feasible step, and a
+    // golden-section search finds a narrow feasible window the scan stepped over.
+    let steps = 160;
     let at = |k: usize| fs_max + span * 1e-9f64.powf(1.0 - k as f64 / steps as f64);
     let mut found = None;
-    let mut best = (f64::NEG_INFINITY, fs_max);
-    for k in 0..steps {
-        let f = at(k);
-        let v = h(f);
+    let mut best = (f64::NEG_INFINITY, 0usize);
+    for k in 0..=steps {
+        let v = h(at(k));
         if v > best.0 {
-            best = (v, f);
+            best = (v, k);
         }
         if v >= 0.0 {
-            found = Some(k);
+            found = Some((at(k.saturating_sub(1)), at(k)));
             break;
         }
     }
-    let k = match found {
-        Some(k) => k,
-        None => {
-            return Err(unrealizable_error(crystals, g, b_norm));
+    if found.is_none() {
+        let k = best.1;
+        let (mut a, mut b) = (at(k.saturating_sub(1)), at((k + 1).min(steps)));
+        for _ in 0..100 {
+            let m1 = b - 0.618_033_988_749_895 * (b - a);
+            let m2 = a + 0.618_033_988_749_895 * (b - a);
+            if h(m1) > h(m2) {
+                b = m2;
+            } else {
+                a = m1;
+            }
         }
+        let top = 0.5 * (a + b);
+        if h(top) >= 0.0 {
+            found = Some((at(k.saturating_sub(1)), top));
+        }
+    }
+    let (lo, hi) = match found {
+        Some(x) => x,
+        None => return Err(unrealizable_error(crystals, g, b_norm)),
     };
-    let mut f0 = at(k);
-    if k > 0 {
-        let (mut a, mut b) = (at(k - 1), at(k));
+    let mut f0 = hi;
+    if h(lo) < 0.0 {
+        let (mut a, mut b) = (lo, hi);
         for _ in 0..100 {
             let m = 0.5 * (a + b);
             if h(m) >= 0.0 {
@@ -634,7 +654,6 @@ pub(crate) fn tune(crystals: &[Crystal], g: &[f64], b_norm: f64, subtract_rm: bo
         }
         f0 = b;
     }
-    let _ = best;
     let w0 = 2.0 * PI * f0;
     let kk = inverters(f0);
     let m = margins(f0);

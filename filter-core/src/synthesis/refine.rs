@@ -96,7 +96,7 @@ impl Problem<'_> {
         let lad = self.ladder(p)?;
         let fc = p[2 * n + 1];
         let l0 = if lossless { 0.0 } else { p[2 * n + 3] };
-        let (f, loss, a, b, bw) = self.passband(&lad, fc)?;
+        let (_f, loss, a, b, bw) = self.passband(&lad, fc)?;
         // Extrema inside the band, refined by a parabola through three samples.
         let mut maxima = Vec::new();
         let mut minima = Vec::new();
@@ -169,8 +169,8 @@ impl Problem<'_> {
             out[j] = self.weights[j] * (loss - l0 - self.ideal_db[j]);
         }
         let (_, _, _, _, bw) = self.passband(&lad, fc)?;
-        // The −3 dB width is pinned: 0.1 % weighs like 0.03 dB of shape error.
-        out[self.omegas.len()] = 30.0 * (bw / self.target_b3 - 1.0);
+        // The −3 dB width is pinned: 0.01 % weighs like 0.03 dB of shape error.
+        out[self.omegas.len()] = 300.0 * (bw / self.target_b3 - 1.0);
         if out.iter().any(|v| !v.is_finite()) {
             return Err(Error::numerical("refinement produced non-finite values"));
         }
@@ -208,7 +208,12 @@ fn dissipated_loss_db(g: &[f64], d: f64, w: f64) -> f64 {
     }
 }
 
-pub(super) fn refine(design: &mut Design, lp_used: &LowpassData, b_norm: f64) -> Result<()> {
+pub(super) fn refine(
+    design: &mut Design,
+    lp_used: &LowpassData,
+    b_norm: f64,
+    b3_target: f64,
+) -> Result<()> {
     let n = design.order();
     if n < 2 {
         // A single crystal has nothing to adjust against: its bandwidth is set by Rs + RL.
@@ -258,7 +263,7 @@ pub(super) fn refine(design: &mut Design, lp_used: &LowpassData, b_norm: f64) ->
                     b = m;
                 }
             }
-            super::nominal_b3(design) / (0.5 * (a + b))
+            b3_target / (0.5 * (a + b))
         } else {
             b_norm
         }
@@ -282,7 +287,6 @@ pub(super) fn refine(design: &mut Design, lp_used: &LowpassData, b_norm: f64) ->
     p.push(before.center_hz);
     p.push(0.0);
     p.push(before.insertion_loss_db);
-    let b3_target = super::nominal_b3(design);
     let mut prob = Problem {
         design,
         objective: Objective::Shape,
