@@ -83,7 +83,8 @@ pub struct RefinementReport {
     pub ripple_db: [f64; 2],
     /// −3 dB bandwidth before and after, Hz.
     pub bw_3db_hz: [f64; 2],
-    /// Largest relative change of any capacitor.
+    /// Largest relative change of any capacitor (series capacitors by their reactance, so one
+    /// that became a wire counts as 1.0).
     pub max_cap_change: f64,
     /// Relative change of the source and load resistances.
     pub termination_change: [f64; 2],

@@ -238,7 +238,9 @@ fn compute(t: &Trace<'_>) -> Result<Performance> {
             "a range that contains the whole −6 dB passband (widen the span)",
         )
     })?;
-    let e60 = walk(peak - 60.0).map(|(a, b, _, _)| [a, b]);
+    let e60 = walk(peak - 60.0)
+        .map(|(a, b, _, _)| [a, b])
+        .or_else(|| skirt_walk(t, imax, peak - 60.0, hi6 - lo6));
     // Ripple between the outermost maxima.
     let (ripple, rl_lo, rl_hi) = if maxima.len() >= 2 {
         let f_first = maxima.iter().map(|m| m.0).fold(f64::INFINITY, f64::min);
@@ -304,6 +306,57 @@ fn compute(t: &Trace<'_>) -> Result<Performance> {
         group_delay_center_s: t.delay_at(center),
         group_delay_variation_s: dmax - dmin,
     })
+}
+
+/// The crossings of `level` on both sides of the peak when the sampled range does not reach
+/// them: with a circuit to evaluate, walk outward past the grid's ends in steps of a fortieth of
+/// the −6 dB bandwidth (fine enough not to step over the C0 notch's skirt) for up to 400
+/// bandwidths, then bisect.
+fn skirt_walk(t: &Trace<'_>, imax: usize, level: f64, bw6: f64) -> Option<[f64; 2]> {
+    t.exact?;
+    let n = t.f.len();
+    let step = bw6 / 40.0;
+    let side = |dir: f64| -> Option<f64> {
+        // Start from the last grid point on this side that is still above the level.
+        let mut i = imax;
+        if dir < 0.0 {
+            while i > 0 && t.s21_db[i] >= level {
+                i -= 1;
+            }
+            if t.s21_db[i] < level {
+                return Some(t.crossing(i, level));
+            }
+        } else {
+            while i + 1 < n && t.s21_db[i] >= level {
+                i += 1;
+            }
+            if t.s21_db[i] < level {
+                return Some(t.crossing(i - 1, level));
+            }
+        }
+        let mut f = t.f[i];
+        for _ in 0..16_000 {
+            let g = f + dir * step;
+            if g <= 0.0 {
+                return None;
+            }
+            if t.s21_at(g) < level {
+                let (mut a, mut b) = (f, g);
+                for _ in 0..60 {
+                    let m = 0.5 * (a + b);
+                    if t.s21_at(m) >= level {
+                        a = m;
+                    } else {
+                        b = m;
+                    }
+                }
+                return Some(0.5 * (a + b));
+            }
+            f = g;
+        }
+        None
+    };
+    Some([side(-1.0)?, side(1.0)?])
 }
 
 impl Performance {

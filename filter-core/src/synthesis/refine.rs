@@ -35,6 +35,9 @@ struct Problem<'a> {
     design: &'a Design,
     objective: Objective,
     target_b3: f64,
+    /// The level (dB below the minimum loss) whose bandwidth is pinned, and that bandwidth.
+    pin_level_db: f64,
+    pin_bw: f64,
     omegas: Vec<f64>,
     weights: Vec<f64>,
     ideal_db: Vec<f64>,
@@ -123,7 +126,7 @@ impl Problem<'_> {
             out[n + k] = v - l0 - ripple_db;
         }
         // 0.1 % of bandwidth weighs like 0.01 dB of ripple.
-        out[2 * n - 1] = 10.0 * (bw / self.target_b3 - 1.0);
+        out[2 * n - 1] = 10.0 * (bw / self.pin_bw - 1.0);
         Ok(())
     }
 
@@ -140,9 +143,9 @@ impl Problem<'_> {
             .map(|&x| -db(lad.response_w(2.0 * PI * x).s21))
             .collect();
         let lmin = loss.iter().cloned().fold(f64::INFINITY, f64::min);
-        // −3 dB crossings by linear interpolation, walking out from the best point.
+        // Crossings of the pinned level by linear interpolation, walking out from the best point.
         let ibest = loss.iter().position(|&v| v == lmin).unwrap_or(m / 2);
-        let level = lmin + 3.0;
+        let level = lmin + self.pin_level_db;
         let mut a = ibest;
         while a > 0 && loss[a] < level {
             a -= 1;
@@ -170,7 +173,7 @@ impl Problem<'_> {
         }
         let (_, _, _, _, bw) = self.passband(&lad, fc)?;
         // The −3 dB width is pinned: 0.01 % weighs like 0.03 dB of shape error.
-        out[self.omegas.len()] = 300.0 * (bw / self.target_b3 - 1.0);
+        out[self.omegas.len()] = 300.0 * (bw / self.pin_bw - 1.0);
         if out.iter().any(|v| !v.is_finite()) {
             return Err(Error::numerical("refinement produced non-finite values"));
         }
@@ -249,10 +252,16 @@ pub(super) fn refine(
     for v in &mut ideal {
         *v -= base_loss;
     }
-    // Pin the −3 dB width of the target shape itself: with dissipation its corners are
+    // The bandwidth the user gave is the one held fixed.
+    let (pin_level_db, pin_bw) = match design.spec.bandwidth_at {
+        crate::design::BandwidthAt::Db6 => (6.0, design.spec.bandwidth_hz),
+        crate::design::BandwidthAt::Db3 => (3.0, design.spec.bandwidth_hz),
+        crate::design::BandwidthAt::Ripple => (3.0, b3_target),
+    };
+    // Pin the width of the target shape itself: with dissipation its corners are
     // rounded and its own −3 dB point lies inside the lossless one.
     let b_norm = if d > 0.0 {
-        let rel = |w: f64| dissipated_loss_db(&lp.g, d, w.max(1e-9)) - base_loss - 3.0;
+        let rel = |w: f64| dissipated_loss_db(&lp.g, d, w.max(1e-9)) - base_loss - pin_level_db;
         let (mut a, mut b) = (1e-6, om_max);
         if rel(a) < 0.0 && rel(b) > 0.0 {
             for _ in 0..80 {
@@ -263,7 +272,7 @@ pub(super) fn refine(
                     b = m;
                 }
             }
-            b3_target / (0.5 * (a + b))
+            pin_bw / (0.5 * (a + b))
         } else {
             b_norm
         }
@@ -291,6 +300,8 @@ pub(super) fn refine(
         design,
         objective: Objective::Shape,
         target_b3: b3_target,
+        pin_level_db,
+        pin_bw,
         omegas,
         weights,
         ideal_db: ideal,
@@ -331,9 +342,14 @@ pub(super) fn refine(
     for (a, b) in shunt.iter().zip(&design.shunt_caps_f) {
         max_change = max_change.max((a / b - 1.0).abs());
     }
+    // Series capacitors by their reactance (elastance 1/C, zero for a wire), so a capacitor
+    // that became a wire counts as a 100 % change rather than an infinite one.
     for (a, b) in series.iter().zip(&design.series_caps_f) {
-        if let (Some(a), Some(b)) = (a, b) {
-            max_change = max_change.max((a / b - 1.0).abs());
+        let ea = a.map_or(0.0, |c| 1.0 / c);
+        let eb = b.map_or(0.0, |c| 1.0 / c);
+        let big = ea.max(eb);
+        if big > 0.0 {
+            max_change = max_change.max((ea - eb).abs() / big);
         }
     }
     let report = RefinementReport {

@@ -1,0 +1,218 @@
+//! `xtal-ladder analyze`: metrics of a design, its response as CSV, and plots.
+
+use super::{
+    check_output, family_label, passband_window, print_json, print_text, read_design, wide_window,
+    window, Window,
+};
+use crate::files;
+use crate::flags::{AnalyzeCmd, AxisArg, Format};
+use crate::text;
+use anyhow::{Context, Result};
+use filter_core::design::Design;
+use filter_core::metrics::{evaluate, Performance};
+use filter_core::network::{Analyze, FrequencyGrid, Ladder, Sweep};
+use filter_core::plot::{
+    group_delay_svg, return_loss_svg, transmission_svg, wide_svg, FrequencyAxis, PlotOptions,
+};
+use serde_json::json;
+use std::io::Write;
+use std::path::PathBuf;
+
+/// Points of the default analysis.
+const DEFAULT_POINTS: usize = 2001;
+/// Points of the default wide analysis.
+const DEFAULT_WIDE_POINTS: usize = 4001;
+
+/// The CSV header of `analyze --format csv` (a contract other tools rely on).
+pub const CSV_HEADER: &str = "frequency_hz,s21_db,s21_deg,s11_db,group_delay_s";
+
+/// Run `analyze`.
+pub fn run(cmd: &AnalyzeCmd, format: Format) -> Result<()> {
+    let ins = vec![cmd.design.clone()];
+    let outputs: Vec<&PathBuf> = [
+        cmd.output.output.as_ref(),
+        cmd.plot.as_ref(),
+        cmd.return_loss_plot.as_ref(),
+        cmd.delay_plot.as_ref(),
+    ]
+    .into_iter()
+    .flatten()
+    .collect();
+    for out in &outputs {
+        check_output(out, &ins)?;
+    }
+    let design = read_design(&cmd.design)?;
+    let ladder = design
+        .to_ladder()
+        .with_context(|| format!("design '{}'", cmd.design.display()))?;
+    let (default, points) = if cmd.wide {
+        (wide_window(&design), DEFAULT_WIDE_POINTS)
+    } else {
+        (passband_window(&design), DEFAULT_POINTS)
+    };
+    let win = window(&cmd.range, default, points)?;
+    let sweep = sweep_of(&ladder, &win)?;
+    // The figures are refined on the circuit, so they do not depend on the grid. A table of
+    // part of the response (say one skirt) needs no passband, so CSV output goes on without.
+    let metrics = evaluate(&ladder, win.from_hz, win.to_hz, win.points).context("analysis window");
+    let metrics = match (metrics, format) {
+        (Ok(p), _) => Some(p),
+        (Err(_), Format::Csv) => None,
+        (Err(e), _) => return Err(e),
+    };
+    let axis = match cmd.axis {
+        AxisArg::Offset => FrequencyAxis::OffsetFrom {
+            center_hz: metrics.map_or(design.center_hz, |p| p.center_hz),
+        },
+        AxisArg::Absolute => FrequencyAxis::AbsoluteMhz,
+    };
+    let title = plot_title(&design, metrics.as_ref());
+    if let Some(path) = &cmd.plot {
+        let mut opts = PlotOptions::new(title.clone(), axis);
+        opts.linear = cmd.linear;
+        let svg = if cmd.wide {
+            let (notches, spurious) =
+                notches_and_spurious(&design, (win.to_hz - win.from_hz) / 50.0);
+            wide_svg(&sweep, metrics.as_ref(), &notches, &spurious, &opts)
+        } else {
+            transmission_svg(&sweep, metrics.as_ref(), &opts)
+        }
+        .context("transmission plot")?;
+        files::write_bytes(path, svg.as_bytes())?;
+    }
+    if let Some(path) = &cmd.return_loss_plot {
+        let opts = PlotOptions::new(title.clone(), axis);
+        let svg = return_loss_svg(&sweep, metrics.as_ref(), &opts).context("return-loss plot")?;
+        files::write_bytes(path, svg.as_bytes())?;
+    }
+    if let Some(path) = &cmd.delay_plot {
+        let opts = PlotOptions::new(title, axis);
+        let svg = group_delay_svg(&sweep, metrics.as_ref(), &opts).context("group-delay plot")?;
+        files::write_bytes(path, svg.as_bytes())?;
+    }
+    if let Some(path) = &cmd.output.output {
+        files::write_atomic(path, |w| write_csv(&sweep, w))?;
+    }
+    match format {
+        Format::Csv => {
+            if cmd.output.output.is_none() {
+                files::write_stdout(|w| write_csv(&sweep, w))?;
+            }
+            Ok(())
+        }
+        Format::Json => print_json(&json!({
+            "design": cmd.design.display().to_string(),
+            "center_hz": design.center_hz,
+            "from_hz": win.from_hz,
+            "to_hz": win.to_hz,
+            "points": win.points,
+            "performance": super::to_json(&metrics)?,
+        })),
+        Format::Text => {
+            let mut s = format!(
+                "analysis of {} from {} to {} ({} points)\n",
+                cmd.design.display(),
+                text::freq(win.from_hz),
+                text::freq(win.to_hz),
+                win.points
+            );
+            if let Some(p) = &metrics {
+                s += &super::design::performance_text(p);
+            }
+            for (what, path) in [
+                ("response table", cmd.output.output.as_ref()),
+                ("transmission plot", cmd.plot.as_ref()),
+                ("return-loss plot", cmd.return_loss_plot.as_ref()),
+                ("group-delay plot", cmd.delay_plot.as_ref()),
+            ] {
+                if let Some(p) = path {
+                    s += &format!("{what} written to {}\n", p.display());
+                }
+            }
+            print_text(&s)
+        }
+    }
+}
+
+/// The response on the window's grid.
+pub fn sweep_of(ladder: &Ladder, win: &Window) -> Result<Sweep> {
+    let grid = FrequencyGrid::linear(win.from_hz, win.to_hz, win.points).context("range")?;
+    Ok(ladder.sweep(&grid))
+}
+
+/// The C0 notches (parallel resonances) and spurious modes of the crystals, for the wide plot's
+/// markers; markers closer than `min_gap_hz` to the previous one are dropped, so that equal
+/// crystals give one label, not eight.
+pub fn notches_and_spurious(design: &Design, min_gap_hz: f64) -> (Vec<f64>, Vec<f64>) {
+    let thin = |mut f: Vec<f64>| {
+        f.retain(|x| x.is_finite());
+        f.sort_by(f64::total_cmp);
+        let mut out: Vec<f64> = Vec::with_capacity(f.len());
+        for x in f {
+            match out.last() {
+                Some(last) if x - last < min_gap_hz => {}
+                _ => out.push(x),
+            }
+        }
+        out
+    };
+    let notches = thin(design.crystals.iter().map(|x| x.fp_hz()).collect());
+    let spurious = thin(
+        design
+            .crystals
+            .iter()
+            .flat_map(|x| x.spurious.iter().map(|b| b.fs_hz()))
+            .collect(),
+    );
+    (notches, spurious)
+}
+
+/// A plot title with the design's key figures.
+pub fn plot_title(design: &Design, p: Option<&Performance>) -> String {
+    let mut t = format!(
+        "{}, {} crystals, centre {}",
+        family_label(&design.spec.family),
+        design.order(),
+        text::freq(p.map_or(design.center_hz, |p| p.center_hz))
+    );
+    if let Some(p) = p {
+        t += &format!(
+            ": −6 dB {}, loss {}, ripple {}",
+            text::width(p.bw_6db_hz),
+            text::db(p.insertion_loss_db),
+            text::db(p.ripple_db)
+        );
+        if let Some(sf) = p.shape_factor_60_6 {
+            t += &format!(", shape factor {}", text::num(sf, 3));
+        }
+    }
+    t
+}
+
+/// Write the response table: `frequency_hz,s21_db,s21_deg,s11_db,group_delay_s`, shortest
+/// round-trip floats (ryu) through the caller's buffered writer.
+pub fn write_csv(sweep: &Sweep, w: &mut dyn Write) -> Result<()> {
+    let s21_db = sweep.s21_db();
+    let s21_deg = sweep.s21_deg();
+    let s11_db = sweep.s11_db();
+    let mut buf = ryu::Buffer::new();
+    w.write_all(CSV_HEADER.as_bytes())?;
+    w.write_all(b"\n")?;
+    let rows = sweep
+        .f_hz
+        .iter()
+        .zip(&s21_db)
+        .zip(&s21_deg)
+        .zip(&s11_db)
+        .zip(&sweep.group_delay_s);
+    for ((((f, a), b), c), d) in rows {
+        for (k, v) in [f, a, b, c, d].into_iter().enumerate() {
+            if k > 0 {
+                w.write_all(b",")?;
+            }
+            w.write_all(buf.format(*v).as_bytes())?;
+        }
+        w.write_all(b"\n")?;
+    }
+    Ok(())
+}
