@@ -19,6 +19,24 @@
 //! 13. [`tolerance`]: Monte Carlo yield and sensitivity.
 //! 14. [`plot`]: SVG plots.
 //!
+//! # Example
+//!
+//! ```
+//! use filter_core::crystal::Crystal;
+//! use filter_core::design::{BandwidthAt, ResponseFamily};
+//! use filter_core::synthesis::LadderSpec;
+//!
+//! # fn main() -> Result<(), filter_core::Error> {
+//! let crystal = Crystal::from_fs_lm("Y", 9e6, 15e-3, 10.0, 4e-12)?;
+//! let spec = LadderSpec::identical(ResponseFamily::Butterworth, 4, 2400.0, BandwidthAt::Db3, &crystal);
+//! let design = spec.synthesize()?;
+//! // The exact analysis of the realized ladder (C0 and Rm included) meets the bandwidth.
+//! approx::assert_relative_eq!(design.performance.bw_3db_hz, 2400.0, max_relative = 0.03);
+//! assert_eq!(design.shunt_caps_f.len(), 3);
+//! # Ok(())
+//! # }
+//! ```
+//!
 //! # Conventions
 //! - SI base units inside the library: Hz, H, F, Ω, s. Angular frequencies are named `w_rad_s`
 //!   or `w`; frequencies in hertz `f_hz`. Engineering notation appears only at the edges.
