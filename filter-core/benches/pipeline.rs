@@ -12,7 +12,10 @@ fn ladder(n: usize) -> Ladder {
         let fs = 9e6 + 13.0 * i as f64 - 40.0;
         let x = Crystal::from_fs_lm("x", fs, 15e-3 + 1e-4 * i as f64, 10.0, 4e-12).unwrap();
         stages.push(Stage::Series(Branch::Series(vec![
-            Branch::Element(Element::Capacitor(120e-12 + 3e-12 * i as f64, Loss::Lossless)),
+            Branch::Element(Element::Capacitor(
+                120e-12 + 3e-12 * i as f64,
+                Loss::Lossless,
+            )),
             Branch::Element(Element::Crystal(x)),
         ])));
         if i + 1 < n {
@@ -29,11 +32,15 @@ fn analysis(c: &mut Criterion) {
     let mut g = c.benchmark_group("analysis");
     let lad8 = ladder(8);
     let grid = FrequencyGrid::linear(8.99e6, 9.01e6, 10_001).unwrap();
-    g.bench_function("ladder_8x10001", |b| b.iter(|| black_box(lad8.sweep(&grid))));
+    g.bench_function("ladder_8x10001", |b| {
+        b.iter(|| black_box(lad8.sweep(&grid)))
+    });
     let lad12 = ladder(12);
     let grid = FrequencyGrid::linear(8.99e6, 9.01e6, 100_001).unwrap();
     g.sample_size(20);
-    g.bench_function("ladder_12x100001", |b| b.iter(|| black_box(lad12.sweep(&grid))));
+    g.bench_function("ladder_12x100001", |b| {
+        b.iter(|| black_box(lad12.sweep(&grid)))
+    });
     g.finish();
 }
 
@@ -43,8 +50,14 @@ fn synthesis(c: &mut Criterion) {
     let mut g = c.benchmark_group("synthesis");
     let crystals: Vec<Crystal> = (0..8)
         .map(|i| {
-            Crystal::from_fs_lm(&format!("Y{i}"), 9e6 + 7.0 * i as f64 - 25.0, 15e-3, 10.0, 4e-12)
-                .unwrap()
+            Crystal::from_fs_lm(
+                &format!("Y{i}"),
+                9e6 + 7.0 * i as f64 - 25.0,
+                15e-3,
+                10.0,
+                4e-12,
+            )
+            .unwrap()
         })
         .collect();
     let mut spec = LadderSpec {
@@ -55,10 +68,14 @@ fn synthesis(c: &mut Criterion) {
         refine: false,
         crystals,
     };
-    g.bench_function("slope_parameter_8", |b| b.iter(|| black_box(spec.synthesize().unwrap())));
+    g.bench_function("slope_parameter_8", |b| {
+        b.iter(|| black_box(spec.synthesize().unwrap()))
+    });
     spec.refine = true;
     g.sample_size(10);
-    g.bench_function("refined_8", |b| b.iter(|| black_box(spec.synthesize().unwrap())));
+    g.bench_function("refined_8", |b| {
+        b.iter(|| black_box(spec.synthesize().unwrap()))
+    });
     g.finish();
 }
 

@@ -12,7 +12,9 @@ fn main() -> Result<(), filter_core::Error> {
     let crystals = offsets_hz
         .iter()
         .enumerate()
-        .map(|(i, df)| Crystal::from_fs_lm(&format!("Y{}", i + 1), 9.8268e6 + df, 17e-3, 11.0, 3.9e-12))
+        .map(|(i, df)| {
+            Crystal::from_fs_lm(&format!("Y{}", i + 1), 9.8268e6 + df, 17e-3, 11.0, 3.9e-12)
+        })
         .collect::<Result<Vec<_>, _>>()?;
     let spec = LadderSpec {
         family: ResponseFamily::Chebyshev { ripple_db: 0.1 },

@@ -77,7 +77,11 @@ pub fn build_from_parts(design: &Design, opts: &RoundingOptions) -> Result<AsBui
     let f0 = design.center_hz;
     let w0 = 2.0 * PI * f0;
     let pick = |v: f64| choose(v, opts.series, opts.allow_pairs, opts.pair_gain);
-    let shunt: Vec<Choice> = design.shunt_caps_f.iter().map(|&c| pick(c)).collect::<Result<_>>()?;
+    let shunt: Vec<Choice> = design
+        .shunt_caps_f
+        .iter()
+        .map(|&c| pick(c))
+        .collect::<Result<_>>()?;
     let mut notes = Vec::new();
     let series_target: Vec<Option<f64>> = if opts.retune {
         (0..n)
@@ -122,7 +126,10 @@ pub fn build_from_parts(design: &Design, opts: &RoundingOptions) -> Result<AsBui
     };
     let mut built = design.clone();
     built.shunt_caps_f = shunt.iter().map(Choice::value).collect();
-    built.series_caps_f = series.iter().map(|c| c.as_ref().map(Choice::value)).collect();
+    built.series_caps_f = series
+        .iter()
+        .map(|c| c.as_ref().map(Choice::value))
+        .collect();
     built.source_ohm = source_ohm;
     built.load_ohm = load_ohm;
     let ideal = design.performance;
@@ -170,12 +177,18 @@ mod tests {
     fn chosen_values_are_series_members_and_metrics_are_recomputable() {
         let d = demo_like();
         for pairs in [false, true] {
-            let opts = RoundingOptions { allow_pairs: pairs, ..Default::default() };
+            let opts = RoundingOptions {
+                allow_pairs: pairs,
+                ..Default::default()
+            };
             let b = build_from_parts(&d, &opts).unwrap();
             let member = |v: f64| {
                 let e = (v.log10() - v.log10().floor()) * 1.0;
                 let m = 10f64.powf(e);
-                Series::E24.mantissas().iter().any(|&s| (s / m - 1.0).abs() < 1e-9 || (s / (m * 10.0) - 1.0).abs() < 1e-9)
+                Series::E24
+                    .mantissas()
+                    .iter()
+                    .any(|&s| (s / m - 1.0).abs() < 1e-9 || (s / (m * 10.0) - 1.0).abs() < 1e-9)
             };
             for c in b.shunt.iter().chain(b.series.iter().flatten()) {
                 for p in c.parts() {
@@ -193,15 +206,32 @@ mod tests {
     #[test]
     fn retuning_helps() {
         let d = demo_like();
-        let plain = build_from_parts(&d, &RoundingOptions { retune: false, ..Default::default() }).unwrap();
+        let plain = build_from_parts(
+            &d,
+            &RoundingOptions {
+                retune: false,
+                ..Default::default()
+            },
+        )
+        .unwrap();
         let tuned = build_from_parts(&d, &RoundingOptions::default()).unwrap();
         eprintln!(
             "ideal ripple {:.3} dB, rounded {:.3} dB, rounded and re-tuned {:.3} dB",
             d.performance.ripple_db, plain.built.ripple_db, tuned.built.ripple_db
         );
         assert!(tuned.built.ripple_db <= plain.built.ripple_db);
-        let paired = build_from_parts(&d, &RoundingOptions { allow_pairs: true, ..Default::default() }).unwrap();
-        eprintln!("with parallel pairs and re-tuning {:.3} dB", paired.built.ripple_db);
+        let paired = build_from_parts(
+            &d,
+            &RoundingOptions {
+                allow_pairs: true,
+                ..Default::default()
+            },
+        )
+        .unwrap();
+        eprintln!(
+            "with parallel pairs and re-tuning {:.3} dB",
+            paired.built.ripple_db
+        );
         assert!(paired.built.ripple_db <= tuned.built.ripple_db);
     }
 }

@@ -115,7 +115,10 @@ impl TryFrom<CrystalRecord> for Crystal {
         for (i, b) in r.spurious.iter().enumerate() {
             require_positive(&format!("crystal '{}' spurious[{i}].lm_h", r.id), b.lm_h)?;
             require_positive(&format!("crystal '{}' spurious[{i}].cm_f", r.id), b.cm_f)?;
-            require_non_negative(&format!("crystal '{}' spurious[{i}].rm_ohm", r.id), b.rm_ohm)?;
+            require_non_negative(
+                &format!("crystal '{}' spurious[{i}].rm_ohm", r.id),
+                b.rm_ohm,
+            )?;
         }
         x.spurious = r.spurious;
         Ok(x)
@@ -170,15 +173,7 @@ impl Crystal {
         require_positive("Lm", lm_h)?;
         require_positive("Cm", cm_f)?;
         require_non_negative("Rm", rm_ohm)?;
-        Self::from_branch(
-            id,
-            MotionalBranch {
-                rm_ohm,
-                lm_h,
-                cm_f,
-            },
-            c0_f,
-        )
+        Self::from_branch(id, MotionalBranch { rm_ohm, lm_h, cm_f }, c0_f)
     }
 
     fn from_branch(id: &str, motional: MotionalBranch, c0_f: f64) -> Result<Self> {

@@ -161,7 +161,11 @@ impl Design {
     pub fn validate(&self) -> Result<()> {
         let n = self.crystals.len();
         if n == 0 {
-            return Err(Error::invalid("crystals", "an empty list", "at least one crystal"));
+            return Err(Error::invalid(
+                "crystals",
+                "an empty list",
+                "at least one crystal",
+            ));
         }
         if self.series_caps_f.len() != n {
             return Err(Error::invalid(
@@ -208,11 +212,9 @@ impl Design {
                     &format!("{DESIGN_SCHEMA_VERSION} (this program's design format)"),
                 ))
             }
-            None => {
-                return Err(Error::parse(
-                    "design file has no schema_version field; is it a design written by this program?",
-                ))
-            }
+            None => return Err(Error::parse(
+                "design file has no schema_version field; is it a design written by this program?",
+            )),
         }
         let d: Design = serde_json::from_value(v)
             .map_err(|e| Error::new(ErrorKind::Parse, format!("design file: {e}")))?;

@@ -107,7 +107,11 @@ pub fn require_positive(field: &str, value: f64) -> Result<f64> {
     if value.is_finite() && value > 0.0 {
         Ok(value)
     } else {
-        Err(Error::invalid(field, value, "a finite value greater than zero"))
+        Err(Error::invalid(
+            field,
+            value,
+            "a finite value greater than zero",
+        ))
     }
 }
 
@@ -116,6 +120,10 @@ pub fn require_non_negative(field: &str, value: f64) -> Result<f64> {
     if value.is_finite() && value >= 0.0 {
         Ok(value)
     } else {
-        Err(Error::invalid(field, value, "a finite value of zero or more"))
+        Err(Error::invalid(
+            field,
+            value,
+            "a finite value of zero or more",
+        ))
     }
 }

@@ -185,7 +185,11 @@ fn local_extrema(y: &[f64], lo: usize, hi: usize, sign: f64) -> Vec<usize> {
 fn compute(t: &Trace<'_>) -> Result<Performance> {
     let n = t.f.len();
     if n < 5 {
-        return Err(Error::invalid("sweep", format!("{n} points"), "at least 5 points"));
+        return Err(Error::invalid(
+            "sweep",
+            format!("{n} points"),
+            "at least 5 points",
+        ));
     }
     if t.s21_db.iter().any(|v| v.is_nan()) {
         return Err(Error::numerical("the response holds NaN values"));
@@ -230,7 +234,8 @@ fn compute(t: &Trace<'_>) -> Result<Performance> {
     for &(_, v) in &maxima {
         peak = peak.max(v);
     }
-    let (lo3, hi3, _, _) = walk(peak - 3.0).ok_or_else(|| Error::numerical("lost the −3 dB band"))?;
+    let (lo3, hi3, _, _) =
+        walk(peak - 3.0).ok_or_else(|| Error::numerical("lost the −3 dB band"))?;
     let (lo6, hi6, _, _) = walk(peak - 6.0).ok_or_else(|| {
         Error::invalid(
             "sweep range",
@@ -253,10 +258,15 @@ fn compute(t: &Trace<'_>) -> Result<Performance> {
             valley = valley.min(t.extremum(i, -1.0, &s21, &t.s21_db).1);
         }
         let top = maxima.iter().map(|m| m.1).fold(f64::NEG_INFINITY, f64::max);
-        let ripple = if valley.is_finite() { (top - valley).max(0.0) } else { 0.0 };
+        let ripple = if valley.is_finite() {
+            (top - valley).max(0.0)
+        } else {
+            0.0
+        };
         (ripple, f_first, f_last)
     } else {
-        let (a, b, _, _) = walk(peak - 1.0).ok_or_else(|| Error::numerical("lost the −1 dB band"))?;
+        let (a, b, _, _) =
+            walk(peak - 1.0).ok_or_else(|| Error::numerical("lost the −1 dB band"))?;
         (0.0, a, b)
     };
     // Return loss: the largest |S11| over [rl_lo, rl_hi], refined.
@@ -382,7 +392,12 @@ impl Performance {
 ///
 /// # Errors
 /// As [`Performance::from_sweep`], plus a bad range.
-pub fn evaluate(net: &impl Analyze, f_lo_hz: f64, f_hi_hz: f64, points: usize) -> Result<Performance> {
+pub fn evaluate(
+    net: &impl Analyze,
+    f_lo_hz: f64,
+    f_hi_hz: f64,
+    points: usize,
+) -> Result<Performance> {
     require_positive("lower analysis frequency", f_lo_hz)?;
     let grid = FrequencyGrid::linear(f_lo_hz, f_hi_hz, points.max(5))?;
     let s = net.sweep(&grid);
@@ -424,7 +439,11 @@ mod tests {
         let width = |x_db: f64| rt * (10f64.powf(x_db / 10.0) - 1.0).sqrt() / (2.0 * PI * l);
         assert_relative_eq!(p.bw_3db_hz, width(3.0), max_relative = 1e-9);
         assert_relative_eq!(p.bw_6db_hz, width(6.0), max_relative = 1e-9);
-        assert_relative_eq!(p.insertion_loss_db, -20.0 * (100.0f64 / 110.0).log10(), epsilon = 1e-9);
+        assert_relative_eq!(
+            p.insertion_loss_db,
+            -20.0 * (100.0f64 / 110.0).log10(),
+            epsilon = 1e-9
+        );
         assert_eq!(p.ripple_db, 0.0);
         // −60 dB lies far outside the sampled ±40 kHz: found by the skirt search.
         match p.bw_60db_hz {

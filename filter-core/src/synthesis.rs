@@ -153,7 +153,11 @@ impl LadderSpec {
         let mut warnings = Vec::new();
         let mut lp_used = lp.clone();
         let fs_max = self.crystals.iter().map(|c| c.fs_hz()).fold(0.0, f64::max);
-        let q_min_proto = 1.0 / lp.poles.iter().map(|p| p.re.abs()).fold(f64::INFINITY, f64::min);
+        let q_min_proto = 1.0
+            / lp.poles
+                .iter()
+                .map(|p| p.re.abs())
+                .fold(f64::INFINITY, f64::min);
         if self.predistort {
             if !qu.is_finite() {
                 return Err(Error::invalid(
@@ -181,7 +185,11 @@ impl LadderSpec {
                 )));
             }
             let pre = predistorted(&self.family, n, 1.0 / q0)?;
-            lp_used = LowpassData { w3: lp.w3, w6: lp.w6, ..pre };
+            lp_used = LowpassData {
+                w3: lp.w3,
+                w6: lp.w6,
+                ..pre
+            };
         }
         let tuned = tune(&self.crystals, &lp_used.g, b_norm, !self.predistort)?;
         check_terminations(tuned.source_ohm, tuned.load_ohm)?;
@@ -322,7 +330,11 @@ fn check_against_spec(design: &mut Design, _b_norm: f64, lp: &LowpassData) {
             "the analysed {level} bandwidth is {got:.1} Hz, {:+.1} % from the {:.1} Hz asked for{}",
             100.0 * err,
             design.spec.bandwidth_hz,
-            if design.spec.refine { "" } else { "; --refine corrects this on the exact model" }
+            if design.spec.refine {
+                ""
+            } else {
+                "; --refine corrects this on the exact model"
+            }
         ));
     }
     if let ResponseFamily::Chebyshev { ripple_db } = design.spec.family {
@@ -330,7 +342,11 @@ fn check_against_spec(design: &mut Design, _b_norm: f64, lp: &LowpassData) {
             design.warnings.push(format!(
                 "the analysed ripple is {:.2} dB against {ripple_db} dB asked for{}",
                 p.ripple_db,
-                if design.spec.refine { "" } else { "; --refine corrects this" }
+                if design.spec.refine {
+                    ""
+                } else {
+                    "; --refine corrects this"
+                }
             ));
         }
     }
@@ -367,7 +383,9 @@ fn check_terminations(rs: f64, rl: f64) -> Result<()> {
 /// k(i,i+1) and [q_in, q_out] for prototype `g`, normalized so that `w_ref` is the bandwidth.
 pub(crate) fn coupling_and_q(g: &[f64], w_ref: f64) -> (Vec<f64>, [f64; 2]) {
     let n = g.len() - 2;
-    let k = (1..n).map(|i| 1.0 / (w_ref * (g[i] * g[i + 1]).sqrt())).collect();
+    let k = (1..n)
+        .map(|i| 1.0 / (w_ref * (g[i] * g[i + 1]).sqrt()))
+        .collect();
     (k, [g[0] * g[1] * w_ref, g[n] * g[n + 1] * w_ref])
 }
 
@@ -418,7 +436,12 @@ fn to_family(f: &ResponseFamily) -> Result<Family> {
                     "as many imaginary parts as real parts",
                 ));
             }
-            Family::Poles(re.iter().zip(im).map(|(&a, &b)| Complex64::new(a, b)).collect())
+            Family::Poles(
+                re.iter()
+                    .zip(im)
+                    .map(|(&a, &b)| Complex64::new(a, b))
+                    .collect(),
+            )
         }
         ResponseFamily::EqualC => {
             return Err(Error::invalid("family", "equal-c", "a pole-defined family"))
@@ -432,9 +455,15 @@ fn lowpass_ladder(g: &[f64]) -> Result<Ladder> {
     let mut stages = Vec::with_capacity(n);
     for (i, &gi) in g[1..=n].iter().enumerate() {
         if i % 2 == 0 {
-            stages.push(Stage::Shunt(Branch::Element(Element::Capacitor(gi, Loss::Lossless))));
+            stages.push(Stage::Shunt(Branch::Element(Element::Capacitor(
+                gi,
+                Loss::Lossless,
+            ))));
         } else {
-            stages.push(Stage::Series(Branch::Element(Element::Inductor(gi, Loss::Lossless))));
+            stages.push(Stage::Series(Branch::Element(Element::Inductor(
+                gi,
+                Loss::Lossless,
+            ))));
         }
     }
     // g(n+1) is a resistance after a shunt capacitor, a conductance after a series inductor.
@@ -473,7 +502,9 @@ pub(crate) fn frequency_at_loss(g: &[f64], loss_db: f64) -> Result<f64> {
     }
     let k = last_below.ok_or_else(|| Error::numerical("prototype response has no passband"))?;
     if k + 1 > steps {
-        return Err(Error::numerical("prototype passband extends beyond the search range"));
+        return Err(Error::numerical(
+            "prototype passband extends beyond the search range",
+        ));
     }
     let (mut a, mut b) = (at(k), at(k + 1));
     for _ in 0..80 {
@@ -525,7 +556,10 @@ fn poles_of_ladder(g: &[f64]) -> Result<Vec<Complex64>> {
     let rl = if n % 2 == 1 { g[n + 1] } else { 1.0 / g[n + 1] };
     let rs = g[0];
     let scale = |p: &[f64], k: f64| p.iter().map(|x| x * k).collect::<Vec<_>>();
-    let den = add(&add(&scale(&a, rl), &b), &add(&scale(&c, rs * rl), &scale(&d, rs)));
+    let den = add(
+        &add(&scale(&a, rl), &b),
+        &add(&scale(&c, rs * rl), &scale(&d, rs)),
+    );
     polynomial_roots(&den)
 }
 
@@ -566,9 +600,18 @@ pub(crate) struct Tuned {
 
 /// Mesh tuning by the slope-parameter method for prototype `g` and bandwidth `b_norm` (Hz at
 /// normalized frequency 1). `subtract_rm` takes the end crystals' Rm out of the terminations.
-pub(crate) fn tune(crystals: &[Crystal], g: &[f64], b_norm: f64, subtract_rm: bool) -> Result<Tuned> {
+pub(crate) fn tune(
+    crystals: &[Crystal],
+    g: &[f64],
+    b_norm: f64,
+    subtract_rm: bool,
+) -> Result<Tuned> {
     let n = crystals.len();
-    let equal_c = g.len() == n + 2 && g[1..=n].iter().all(|&x| x == 1.0) && g[0] == 1.0 && g[n + 1] == 1.0 && n > 2;
+    let equal_c = g.len() == n + 2
+        && g[1..=n].iter().all(|&x| x == 1.0)
+        && g[0] == 1.0
+        && g[n + 1] == 1.0
+        && n > 2;
     // Margin of the tightest mesh at a trial centre: min_i X_i − ΣK (Ω). Every mesh can be
     // tuned with a positive (or no) series capacitor when it is ≥ 0.
     let inverters = |f: f64| -> Vec<f64> {
@@ -600,7 +643,10 @@ pub(crate) fn tune(crystals: &[Crystal], g: &[f64], b_norm: f64, subtract_rm: bo
     };
     let h = |f: f64| margins(f).into_iter().fold(f64::INFINITY, f64::min);
     let fs_max = crystals.iter().map(|c| c.fs_hz()).fold(0.0, f64::max);
-    let fp_min = crystals.iter().map(|c| c.fp_hz()).fold(f64::INFINITY, f64::min);
+    let fp_min = crystals
+        .iter()
+        .map(|c| c.fp_hz())
+        .fold(f64::INFINITY, f64::min);
     let f_hi = fp_min.min(fs_max * 1.05);
     let span = f_hi - fs_max;
     // Offsets from fs_max, log-spaced from 1e-9 of the span (13 % steps); the margin is

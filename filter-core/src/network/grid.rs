@@ -77,10 +77,18 @@ impl FrequencyGrid {
             return Err(Error::invalid(
                 "span",
                 format!("{span_hz} Hz"),
-                &format!("less than twice the centre frequency ({} Hz)", 2.0 * center_hz),
+                &format!(
+                    "less than twice the centre frequency ({} Hz)",
+                    2.0 * center_hz
+                ),
             ));
         }
-        Self::from_to(center_hz - span_hz / 2.0, center_hz + span_hz / 2.0, points, spacing)
+        Self::from_to(
+            center_hz - span_hz / 2.0,
+            center_hz + span_hz / 2.0,
+            points,
+            spacing,
+        )
     }
 
     /// Number of points.

@@ -90,7 +90,10 @@ impl Element {
     /// # Errors
     /// When `farad` is not finite and positive.
     pub fn capacitor(farad: f64) -> Result<Self> {
-        Ok(Element::Capacitor(require_positive("capacitance", farad)?, Loss::Lossless))
+        Ok(Element::Capacitor(
+            require_positive("capacitance", farad)?,
+            Loss::Lossless,
+        ))
     }
 
     /// A lossless inductor, checked.
@@ -98,7 +101,10 @@ impl Element {
     /// # Errors
     /// When `henry` is not finite and positive.
     pub fn inductor(henry: f64) -> Result<Self> {
-        Ok(Element::Inductor(require_positive("inductance", henry)?, Loss::Lossless))
+        Ok(Element::Inductor(
+            require_positive("inductance", henry)?,
+            Loss::Lossless,
+        ))
     }
 
     /// A resistor, checked.

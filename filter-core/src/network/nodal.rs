@@ -40,7 +40,11 @@ impl Circuit {
                 return Err(Error::invalid("branch node", a.max(b), &valid));
             }
             if a == b {
-                return Err(Error::invalid("branch", format!("{a}-{b}"), "two different nodes"));
+                return Err(Error::invalid(
+                    "branch",
+                    format!("{a}-{b}"),
+                    "two different nodes",
+                ));
             }
         }
         if input == 0 || input > nodes || output == 0 || output > nodes || input == output {
@@ -60,7 +64,12 @@ impl Circuit {
         })
     }
 
-    fn solve(&self, w: f64, drive: usize, r_drive: f64) -> (DVector<Complex64>, DVector<Complex64>) {
+    fn solve(
+        &self,
+        w: f64,
+        drive: usize,
+        r_drive: f64,
+    ) -> (DVector<Complex64>, DVector<Complex64>) {
         let n = self.nodes;
         let zero = Complex64::new(0.0, 0.0);
         let mut y = DMatrix::from_element(n, n, zero);
@@ -82,9 +91,13 @@ impl Circuit {
         // A 1 V EMF behind r_drive, as a Norton current.
         i[drive - 1] = Complex64::new(1.0 / r_drive, 0.0);
         let lu = y.lu();
-        let v = lu.solve(&i).unwrap_or_else(|| DVector::from_element(n, Complex64::new(f64::NAN, f64::NAN)));
+        let v = lu
+            .solve(&i)
+            .unwrap_or_else(|| DVector::from_element(n, Complex64::new(f64::NAN, f64::NAN)));
         let rhs = -(&dy * &v);
-        let dv = lu.solve(&rhs).unwrap_or_else(|| DVector::from_element(n, Complex64::new(f64::NAN, f64::NAN)));
+        let dv = lu
+            .solve(&rhs)
+            .unwrap_or_else(|| DVector::from_element(n, Complex64::new(f64::NAN, f64::NAN)));
         (v, dv)
     }
 }

@@ -42,7 +42,12 @@ fn series_lc_peaks_where_the_trade_says() {
     let f = extreme(&b, 5e6, 8e6, true);
     assert!((f / 6.5e6 - 1.0).abs() < 0.01, "peak at {f}");
     // And the lossless series circuit passes everything at resonance.
-    assert!(db(a.response(1.0 / (2.0 * PI * (22e-6f64 * 22e-12).sqrt())).s21).abs() < 1e-9);
+    assert!(
+        db(a.response(1.0 / (2.0 * PI * (22e-6f64 * 22e-12).sqrt()))
+            .s21)
+        .abs()
+            < 1e-9
+    );
 }
 
 #[test]
@@ -78,10 +83,17 @@ fn series_circuit_then_tank_gives_peak_and_valley() {
     let (mut lo, mut hi) = (6.6e6, 9.5e6);
     for _ in 0..100 {
         let mid = 0.5 * (lo + hi);
-        if x(mid) < 0.0 { lo = mid } else { hi = mid }
+        if x(mid) < 0.0 {
+            lo = mid
+        } else {
+            hi = mid
+        }
     }
     let step = (9.5e6 - 6.9e6) / 20000.0;
-    assert!((peak - lo).abs() < 2.0 * step, "peak {peak}, reactances cancel at {lo}");
+    assert!(
+        (peak - lo).abs() < 2.0 * step,
+        "peak {peak}, reactances cancel at {lo}"
+    );
     assert!((valley / 6.5e6 - 1.0).abs() < 0.01, "valley {valley}");
     assert!(db(a.response(valley).s21) < db(a.response(peak).s21) - 40.0);
 }
@@ -100,8 +112,16 @@ fn crystal_near_6mhz_peak_at_fs_and_notch_at_fp() {
     // The transmission peak sits below fs by about ω0·C0·Rm·(Rm + 4·R0)/(4π·Lm), about 4 Hz
     // here (first-order estimate); within two grid steps of that.
     let shift = 2.0 * PI * fs * 4e-12 * 15.0 * (15.0 + 200.0) / (4.0 * PI * 10e-3);
-    assert!((s.f_hz[imax] - (fs - shift)).abs() < 2.0 * step, "peak {} fs {fs}", s.f_hz[imax]);
-    assert!((s.f_hz[imin] - fp).abs() < 2.0 * step, "notch {} fp {fp}", s.f_hz[imin]);
+    assert!(
+        (s.f_hz[imax] - (fs - shift)).abs() < 2.0 * step,
+        "peak {} fs {fs}",
+        s.f_hz[imax]
+    );
+    assert!(
+        (s.f_hz[imin] - fp).abs() < 2.0 * step,
+        "notch {} fp {fp}",
+        s.f_hz[imin]
+    );
     assert!(s.f_hz[imin] > s.f_hz[imax]);
     // Peak level: S21 = 2·R0/(2·R0 + Rm) with R0 = 50 Ω, Rm = 15 Ω.
     assert_relative_eq!(d[imax], 20.0 * (100.0f64 / 115.0).log10(), epsilon = 1e-3);
@@ -124,9 +144,18 @@ fn linear_and_db_magnitudes_agree() {
 #[test]
 fn unequal_terminations_resistive_divider() {
     // A series resistor R between Rs and RL: S21 = 2·sqrt(Rs·RL)/(Rs + R + RL).
-    let a = Ladder::new(12.5, 800.0, vec![Stage::Series(Element::Resistor(40.0).into())]).unwrap();
+    let a = Ladder::new(
+        12.5,
+        800.0,
+        vec![Stage::Series(Element::Resistor(40.0).into())],
+    )
+    .unwrap();
     let r = a.response(1e6);
-    assert_relative_eq!(r.s21.re, 2.0 * (12.5f64 * 800.0).sqrt() / 852.5, max_relative = 1e-14);
+    assert_relative_eq!(
+        r.s21.re,
+        2.0 * (12.5f64 * 800.0).sqrt() / 852.5,
+        max_relative = 1e-14
+    );
     assert_relative_eq!(r.s11.re, (840.0 - 12.5) / 852.5, max_relative = 1e-14);
     assert_relative_eq!(r.s22.re, (52.5 - 800.0) / 852.5, max_relative = 1e-14);
 }
@@ -154,11 +183,27 @@ fn random_ladder(rng: &mut ChaCha8Rng, n: usize) -> Ladder {
     for i in 0..n {
         let lm = rng.gen_range(5e-3..30e-3);
         let fs = f0 + rng.gen_range(-300.0..300.0);
-        let x = crate::crystal::Crystal::from_fs_lm("x", fs, lm, rng.gen_range(0.0..40.0), rng.gen_range(0.0..6e-12))
-            .unwrap();
-        let x = if i == 2 { x.with_spurious(f0 + 40e3, 50e-3, 80.0).unwrap() } else { x };
-        let cs = Branch::Element(Element::Capacitor(rng.gen_range(20e-12..200e-12), Loss::Q(800.0)));
-        stages.push(Stage::Series(Branch::Series(vec![cs, Element::Crystal(x).into()])));
+        let x = crate::crystal::Crystal::from_fs_lm(
+            "x",
+            fs,
+            lm,
+            rng.gen_range(0.0..40.0),
+            rng.gen_range(0.0..6e-12),
+        )
+        .unwrap();
+        let x = if i == 2 {
+            x.with_spurious(f0 + 40e3, 50e-3, 80.0).unwrap()
+        } else {
+            x
+        };
+        let cs = Branch::Element(Element::Capacitor(
+            rng.gen_range(20e-12..200e-12),
+            Loss::Q(800.0),
+        ));
+        stages.push(Stage::Series(Branch::Series(vec![
+            cs,
+            Element::Crystal(x).into(),
+        ])));
         if i + 1 < n {
             stages.push(Stage::Shunt(Branch::Element(Element::Capacitor(
                 rng.gen_range(50e-12..500e-12),
@@ -166,8 +211,16 @@ fn random_ladder(rng: &mut ChaCha8Rng, n: usize) -> Ladder {
             ))));
         }
     }
-    stages.push(Stage::Shunt(Branch::Element(Element::Inductor(10e-6, Loss::Q(120.0)))));
-    Ladder::new(rng.gen_range(50.0..400.0), rng.gen_range(50.0..400.0), stages).unwrap()
+    stages.push(Stage::Shunt(Branch::Element(Element::Inductor(
+        10e-6,
+        Loss::Q(120.0),
+    ))));
+    Ladder::new(
+        rng.gen_range(50.0..400.0),
+        rng.gen_range(50.0..400.0),
+        stages,
+    )
+    .unwrap()
 }
 
 #[test]
@@ -183,9 +236,17 @@ fn fast_path_agrees_with_nodal_solver() {
             let a = lad.response(f);
             let b = ckt.response(f);
             for (x, y) in [(a.s21, b.s21), (a.s11, b.s11), (a.s22, b.s22)] {
-                assert!((x - y).norm() <= 1e-9 * x.norm().max(y.norm()).max(1e-6), "n={n} f={f}: {x} vs {y}");
+                assert!(
+                    (x - y).norm() <= 1e-9 * x.norm().max(y.norm()).max(1e-6),
+                    "n={n} f={f}: {x} vs {y}"
+                );
             }
-            assert_relative_eq!(a.group_delay_s, b.group_delay_s, max_relative = 1e-8, epsilon = 1e-15);
+            assert_relative_eq!(
+                a.group_delay_s,
+                b.group_delay_s,
+                max_relative = 1e-8,
+                epsilon = 1e-15
+            );
         }
     }
 }
@@ -227,7 +288,8 @@ fn reciprocity_and_passivity() {
     // Lossless: power is conserved and |S11| = |S22|.
     let mut stages = Vec::new();
     for i in 0..4 {
-        let x = crate::crystal::Crystal::from_fs_lm("x", 9e6 + 10.0 * i as f64, 15e-3, 0.0, 3e-12).unwrap();
+        let x = crate::crystal::Crystal::from_fs_lm("x", 9e6 + 10.0 * i as f64, 15e-3, 0.0, 3e-12)
+            .unwrap();
         stages.push(Stage::Series(Element::Crystal(x).into()));
         stages.push(Stage::Shunt(cap(150e-12)));
     }

@@ -82,9 +82,10 @@ impl Problem<'_> {
     fn residuals(&self, p: &[f64], out: &mut DVector<f64>) -> Result<()> {
         match self.objective {
             Objective::Shape => self.shape_residuals(p, out),
-            Objective::Equiripple { ripple_db, lossless } => {
-                self.equiripple_residuals(p, out, ripple_db, lossless)
-            }
+            Objective::Equiripple {
+                ripple_db,
+                lossless,
+            } => self.equiripple_residuals(p, out, ripple_db, lossless),
         }
     }
 
@@ -106,7 +107,11 @@ impl Problem<'_> {
         for i in a + 1..b {
             let (y0, y1, y2) = (loss[i - 1], loss[i], loss[i + 1]);
             let den = y0 - 2.0 * y1 + y2;
-            let peak = if den.abs() > 0.0 { y1 - 0.125 * (y0 - y2).powi(2) / den } else { y1 };
+            let peak = if den.abs() > 0.0 {
+                y1 - 0.125 * (y0 - y2).powi(2) / den
+            } else {
+                y1
+            };
             if y1 < y0 && y1 <= y2 {
                 maxima.push(peak);
             } else if y1 > y0 && y1 >= y2 {
@@ -130,14 +135,15 @@ impl Problem<'_> {
         Ok(())
     }
 
-
     /// Sample the loss around `fc` and find the −3 dB crossings: (frequencies, loss, index
     /// of the lower and upper crossing sample, −3 dB width).
     #[allow(clippy::type_complexity)]
     fn passband(&self, lad: &Ladder, fc: f64) -> Result<(Vec<f64>, Vec<f64>, usize, usize, f64)> {
         let m = 480;
         let (lo, hi) = (fc - 0.8 * self.target_b3, fc + 0.8 * self.target_b3);
-        let f: Vec<f64> = (0..m).map(|j| lo + (hi - lo) * j as f64 / (m - 1) as f64).collect();
+        let f: Vec<f64> = (0..m)
+            .map(|j| lo + (hi - lo) * j as f64 / (m - 1) as f64)
+            .collect();
         let loss: Vec<f64> = f
             .iter()
             .map(|&x| -db(lad.response_w(2.0 * PI * x).s21))
@@ -157,7 +163,8 @@ impl Problem<'_> {
         if loss[a] < level || loss[b] < level {
             return Err(Error::numerical("passband left the refinement window"));
         }
-        let cross = |i: usize, j: usize| f[i] + (level - loss[i]) * (f[j] - f[i]) / (loss[j] - loss[i]);
+        let cross =
+            |i: usize, j: usize| f[i] + (level - loss[i]) * (f[j] - f[i]) / (loss[j] - loss[i]);
         let bw = cross(b, b - 1) - cross(a, a + 1);
         Ok((f, loss, a, b, bw))
     }
@@ -228,10 +235,7 @@ pub(super) fn refine(
     let d = if design.spec.predistort {
         0.0
     } else {
-        design
-            .q0
-            .map(|q0| 1.0 / (q0 / lp.w3))
-            .unwrap_or(0.0)
+        design.q0.map(|q0| 1.0 / (q0 / lp.w3)).unwrap_or(0.0)
     };
     let _ = lp_used;
     let om_max = frequency_at_loss(&lp.g, 20.0)?;
@@ -248,7 +252,8 @@ pub(super) fn refine(
         weights.push(if l <= 3.5 { 1.0 } else { 0.03 });
         ideal.push(l);
     }
-    let base_loss = dissipated_loss_db(&lp.g, d, 1e-9).min(ideal.iter().cloned().fold(f64::INFINITY, f64::min));
+    let base_loss =
+        dissipated_loss_db(&lp.g, d, 1e-9).min(ideal.iter().cloned().fold(f64::INFINITY, f64::min));
     for v in &mut ideal {
         *v -= base_loss;
     }
@@ -311,7 +316,10 @@ pub(super) fn refine(
     let mut iterations = 0;
     if let crate::design::ResponseFamily::Chebyshev { ripple_db } = design.spec.family {
         let lossless = design.q0.is_none();
-        prob.objective = Objective::Equiripple { ripple_db, lossless };
+        prob.objective = Objective::Equiripple {
+            ripple_db,
+            lossless,
+        };
         match levenberg_marquardt(&prob, &p) {
             Ok((q, it)) => {
                 p = q;
@@ -323,7 +331,10 @@ pub(super) fn refine(
                 let (q, it) = levenberg_marquardt(&prob, &p)?;
                 p = q;
                 iterations += it;
-                prob.objective = Objective::Equiripple { ripple_db, lossless };
+                prob.objective = Objective::Equiripple {
+                    ripple_db,
+                    lossless,
+                };
                 if let Ok((q, it)) = levenberg_marquardt(&prob, &p) {
                     p = q;
                     iterations += it;

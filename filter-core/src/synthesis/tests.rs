@@ -17,7 +17,9 @@ fn spread_set(c0: f64) -> Vec<Crystal> {
         .iter()
         .enumerate()
         .map(|(i, df)| {
-            let mut x = Crystal::from_fs_lm("x", 9e6 + df, 15e-3 * (1.0 + 0.01 * i as f64), 0.0, c0).unwrap();
+            let mut x =
+                Crystal::from_fs_lm("x", 9e6 + df, 15e-3 * (1.0 + 0.01 * i as f64), 0.0, c0)
+                    .unwrap();
             x.id = format!("Y{}", i + 1);
             x
         })
@@ -43,7 +45,11 @@ fn design_k_and_q_are_the_published_ones() {
     let d = LadderSpec::identical(ResponseFamily::Butterworth, 4, 2400.0, BandwidthAt::Db3, &x)
         .synthesize()
         .unwrap();
-    assert!((d.q[0] - 0.7654).abs() < 1e-4 && (d.q[1] - 0.7654).abs() < 1e-4, "{:?}", d.q);
+    assert!(
+        (d.q[0] - 0.7654).abs() < 1e-4 && (d.q[1] - 0.7654).abs() < 1e-4,
+        "{:?}",
+        d.q
+    );
     assert!((d.k[0] - 0.8409).abs() < 1e-4, "{:?}", d.k);
     assert!((d.k[1] - 0.5412).abs() < 1e-4, "{:?}", d.k);
 }
@@ -72,8 +78,20 @@ fn ladder_matches_scipy_prototype_through_the_bandpass_mapping() {
     // prototype through the narrowband mapping Ω = (f/f0 − f0/f)·f0/B within 0.05 dB down to
     // −40 dB (the ideal-inverter approximation errs by O(w), i.e. ~1e-3 dB here).
     for (fam, ripple, family, order, bw_at) in [
-        ("butterworth", 0.0, ResponseFamily::Butterworth, 4, BandwidthAt::Db3),
-        ("butterworth", 0.0, ResponseFamily::Butterworth, 7, BandwidthAt::Db3),
+        (
+            "butterworth",
+            0.0,
+            ResponseFamily::Butterworth,
+            4,
+            BandwidthAt::Db3,
+        ),
+        (
+            "butterworth",
+            0.0,
+            ResponseFamily::Butterworth,
+            7,
+            BandwidthAt::Db3,
+        ),
         ("chebyshev", 0.1, cheb(0.1), 5, BandwidthAt::Ripple),
         ("chebyshev", 0.5, cheb(0.5), 6, BandwidthAt::Ripple),
         ("bessel", 0.0, ResponseFamily::Bessel, 4, BandwidthAt::Db3),
@@ -81,7 +99,9 @@ fn ladder_matches_scipy_prototype_through_the_bandpass_mapping() {
         let pts = golden(fam, ripple, order);
         assert!(pts.len() > 20, "golden data for {fam} n={order}");
         let x = lossless(9e6, 0.0);
-        let d = LadderSpec::identical(family.clone(), order, 2400.0, bw_at, &x).synthesize().unwrap();
+        let d = LadderSpec::identical(family.clone(), order, 2400.0, bw_at, &x)
+            .synthesize()
+            .unwrap();
         let lp = lowpass(&family, order).unwrap();
         let w_at = match bw_at {
             BandwidthAt::Db3 => lp.w3,
@@ -110,11 +130,17 @@ fn ladder_matches_scipy_prototype_through_the_bandpass_mapping() {
 
 #[test]
 fn per_crystal_slope_design_with_c0() {
-    let d = spec(cheb(0.1), spread_set(4e-12), 2400.0, BandwidthAt::Db3).synthesize().unwrap();
+    let d = spec(cheb(0.1), spread_set(4e-12), 2400.0, BandwidthAt::Db3)
+        .synthesize()
+        .unwrap();
     let p = d.performance;
     eprintln!("slope design: {p:?}");
     assert!(p.ripple_db <= 0.11, "ripple {}", p.ripple_db);
-    assert!((p.bw_3db_hz / 2400.0 - 1.0).abs() < 0.005, "bw3 {}", p.bw_3db_hz);
+    assert!(
+        (p.bw_3db_hz / 2400.0 - 1.0).abs() < 0.005,
+        "bw3 {}",
+        p.bw_3db_hz
+    );
     // The crystals are copied unchanged.
     assert_eq!(d.crystals, spread_set(4e-12));
 }
@@ -127,22 +153,37 @@ fn refinement_reaches_the_target() {
     let p = d.performance;
     eprintln!("refined: {p:?}\n{:?}", d.refinement);
     assert!((p.ripple_db - 0.1).abs() <= 0.01, "ripple {}", p.ripple_db);
-    assert!((p.bw_3db_hz / 2400.0 - 1.0).abs() <= 0.001, "bw3 {}", p.bw_3db_hz);
+    assert!(
+        (p.bw_3db_hz / 2400.0 - 1.0).abs() <= 0.001,
+        "bw3 {}",
+        p.bw_3db_hz
+    );
     // Return loss for 0.1 dB ripple: −10·log10(1 − 10^(−0.01)) = 16.43 dB (closed form).
-    assert!((p.return_loss_db - 16.43).abs() <= 0.2, "return loss {}", p.return_loss_db);
+    assert!(
+        (p.return_loss_db - 16.43).abs() <= 0.2,
+        "return loss {}",
+        p.return_loss_db
+    );
 }
 
 #[test]
 fn per_crystal_design_keeps_return_loss_that_a_nominal_one_loses() {
     let actual = spread_set(4e-12);
     let nominal_x = Crystal::from_fs_lm("n", 9e6, 15e-3 * 1.035, 0.0, 4e-12).unwrap();
-    let per = spec(cheb(0.1), actual.clone(), 2400.0, BandwidthAt::Db3).synthesize().unwrap();
-    let nom = LadderSpec::identical(cheb(0.1), 8, 2400.0, BandwidthAt::Db3, &nominal_x).synthesize().unwrap();
+    let per = spec(cheb(0.1), actual.clone(), 2400.0, BandwidthAt::Db3)
+        .synthesize()
+        .unwrap();
+    let nom = LadderSpec::identical(cheb(0.1), 8, 2400.0, BandwidthAt::Db3, &nominal_x)
+        .synthesize()
+        .unwrap();
     // Build the nominal design with the actual crystals.
     let mut built = nom.clone();
     built.crystals = actual;
     let p_built = predict(&built).unwrap();
-    eprintln!("per-crystal RL {} dB, nominal-built RL {} dB", per.performance.return_loss_db, p_built.return_loss_db);
+    eprintln!(
+        "per-crystal RL {} dB, nominal-built RL {} dB",
+        per.performance.return_loss_db, p_built.return_loss_db
+    );
     assert!(per.performance.return_loss_db > p_built.return_loss_db + 1.5);
 }
 
@@ -150,7 +191,11 @@ fn per_crystal_design_keeps_return_loss_that_a_nominal_one_loses() {
 fn predistortion_gives_the_ideal_shape_with_a_flat_loss() {
     for (family, n) in [(ResponseFamily::Butterworth, 4), (cheb(0.1), 6)] {
         let lp = lowpass(&family, n).unwrap();
-        let q_min_proto = 1.0 / lp.poles.iter().map(|p| p.re.abs()).fold(f64::INFINITY, f64::min);
+        let q_min_proto = 1.0
+            / lp.poles
+                .iter()
+                .map(|p| p.re.abs())
+                .fold(f64::INFINITY, f64::min);
         // Choose Qu so that q0 = Qu·w = 3·q_min on the prototype's own scale.
         let b3 = 2400.0;
         let b_norm = b3 / lp.w3;
@@ -190,7 +235,11 @@ fn realizability_limit_is_where_tuning_stops() {
     let crystals = vec![x; 8];
     let lp = lowpass(&cheb(0.1), 8).unwrap();
     let limit = bandwidth_limit_hz(&crystals, &lp.g);
-    let ok = |bw: f64| spec(cheb(0.1), crystals.clone(), bw, BandwidthAt::Ripple).synthesize().is_ok();
+    let ok = |bw: f64| {
+        spec(cheb(0.1), crystals.clone(), bw, BandwidthAt::Ripple)
+            .synthesize()
+            .is_ok()
+    };
     let (mut a, mut b) = (limit * 0.5, limit * 2.0);
     assert!(ok(a) && !ok(b));
     for _ in 0..30 {
@@ -204,7 +253,14 @@ fn realizability_limit_is_where_tuning_stops() {
     eprintln!("formula {limit:.1} Hz, exact {a:.1} Hz");
     assert!((a / limit - 1.0).abs() < 0.02);
     // The error message says what to do.
-    let e = spec(cheb(0.1), crystals.clone(), limit * 1.2, BandwidthAt::Ripple).synthesize().unwrap_err();
+    let e = spec(
+        cheb(0.1),
+        crystals.clone(),
+        limit * 1.2,
+        BandwidthAt::Ripple,
+    )
+    .synthesize()
+    .unwrap_err();
     assert_eq!(e.kind(), crate::error::ErrorKind::Unrealizable);
     assert!(e.hint().unwrap_or("").contains("narrower bandwidth"));
 }
@@ -212,7 +268,9 @@ fn realizability_limit_is_where_tuning_stops() {
 #[test]
 fn bad_specs_are_errors_not_panics() {
     let x = lossless(9e6, 4e-12);
-    let mk = |f: ResponseFamily, n: usize, bw: f64, at: BandwidthAt| LadderSpec::identical(f, n, bw, at, &x).synthesize();
+    let mk = |f: ResponseFamily, n: usize, bw: f64, at: BandwidthAt| {
+        LadderSpec::identical(f, n, bw, at, &x).synthesize()
+    };
     assert!(mk(ResponseFamily::Butterworth, 0, 2400.0, BandwidthAt::Db3).is_err());
     assert!(mk(ResponseFamily::Butterworth, 13, 2400.0, BandwidthAt::Db3).is_err());
     assert!(mk(ResponseFamily::Butterworth, 4, -1.0, BandwidthAt::Db3).is_err());
@@ -249,13 +307,21 @@ fn every_family_and_order_gives_a_design() {
 
 #[test]
 fn design_record_round_trips() {
-    let d = spec(cheb(0.1), spread_set(4e-12), 2400.0, BandwidthAt::Db3).synthesize().unwrap();
+    let d = spec(cheb(0.1), spread_set(4e-12), 2400.0, BandwidthAt::Db3)
+        .synthesize()
+        .unwrap();
     let text = d.to_json();
     let back = crate::design::Design::from_json(&text).unwrap();
     assert_eq!(back.shunt_caps_f, d.shunt_caps_f);
     assert_eq!(back.crystals.len(), 8);
-    assert!(crate::design::Design::from_json(&text.replace("\"schema_version\": 1", "\"schema_version\": 7")).is_err());
-    assert!(crate::design::Design::from_json(&text.replace("\"shunt_caps_f\"", "\"shunt_capz\"")).is_err());
+    assert!(crate::design::Design::from_json(
+        &text.replace("\"schema_version\": 1", "\"schema_version\": 7")
+    )
+    .is_err());
+    assert!(
+        crate::design::Design::from_json(&text.replace("\"shunt_caps_f\"", "\"shunt_capz\""))
+            .is_err()
+    );
 }
 
 mod properties {
@@ -333,13 +399,25 @@ fn refinement_pins_the_bandwidth_with_lossy_crystals() {
     // Rm = 10 Ω (Qu ≈ 85 000): without predistortion the corners round and the slope design
     // comes out narrow; refinement must still pin the −3 dB width.
     let crystals: Vec<Crystal> = (0..8)
-        .map(|i| Crystal::from_fs_lm(&format!("Y{i}"), 9e6 + 7.0 * i as f64 - 25.0, 15e-3, 10.0, 4e-12).unwrap())
+        .map(|i| {
+            Crystal::from_fs_lm(
+                &format!("Y{i}"),
+                9e6 + 7.0 * i as f64 - 25.0,
+                15e-3,
+                10.0,
+                4e-12,
+            )
+            .unwrap()
+        })
         .collect();
     let mut s = spec(cheb(0.1), crystals, 2400.0, BandwidthAt::Db3);
     let before = s.synthesize().unwrap().performance;
     s.refine = true;
     let d = s.synthesize().unwrap();
-    eprintln!("slope design {:.1} Hz, refined {:.1} Hz", before.bw_3db_hz, d.performance.bw_3db_hz);
+    eprintln!(
+        "slope design {:.1} Hz, refined {:.1} Hz",
+        before.bw_3db_hz, d.performance.bw_3db_hz
+    );
     assert!((d.performance.bw_3db_hz / 2400.0 - 1.0).abs() < 1e-3);
     assert!(d.refinement.is_some());
 }
