@@ -1,6 +1,6 @@
 //! The ladder fast path: a cascade of series and shunt branches analysed by chain matrices.
 
-use super::{Analyze, Branch, Response};
+use super::{Analyze, Branch, FrequencyGrid, Response, Sweep};
 use crate::error::{require_positive, Result};
 use num_complex::Complex64;
 use std::f64::consts::PI;
@@ -198,9 +198,182 @@ impl Ladder {
     }
 }
 
+/// Frequencies analysed together by the structure-of-arrays path.
+const LANES: usize = 8;
+
+/// One complex number per lane, real and imaginary parts apart, so that every operation is a
+/// loop over `LANES` contiguous doubles the compiler can vectorize.
+#[derive(Clone, Copy)]
+struct Lanes {
+    re: [f64; LANES],
+    im: [f64; LANES],
+}
+
+impl Lanes {
+    #[inline(always)]
+    fn splat(re: f64, im: f64) -> Self {
+        Lanes {
+            re: [re; LANES],
+            im: [im; LANES],
+        }
+    }
+}
+
+/// `acc += x·y` lane by lane (complex).
+#[inline(always)]
+fn mul_add(acc: &mut Lanes, x: &Lanes, y: &Lanes) {
+    for k in 0..LANES {
+        let re = x.re[k] * y.re[k] - x.im[k] * y.im[k];
+        let im = x.re[k] * y.im[k] + x.im[k] * y.re[k];
+        acc.re[k] += re;
+        acc.im[k] += im;
+    }
+}
+
+impl Ladder {
+    /// True when every stage has a precompiled form, so the structure-of-arrays path applies.
+    fn all_fast(&self) -> bool {
+        self.fast.iter().all(|f| !matches!(f, Fast::General { .. }))
+    }
+
+    /// Analyse `LANES` angular frequencies at once (only when [`Ladder::all_fast`]).
+    fn response_lanes(&self, w: &[f64; LANES], out: &mut Sweep) {
+        let mut inv_w = [0.0; LANES];
+        for k in 0..LANES {
+            inv_w[k] = 1.0 / w[k];
+        }
+        let (mut a, mut b, mut c, mut d) = (
+            Lanes::splat(1.0, 0.0),
+            Lanes::splat(0.0, 0.0),
+            Lanes::splat(0.0, 0.0),
+            Lanes::splat(1.0, 0.0),
+        );
+        let zero = Lanes::splat(0.0, 0.0);
+        let (mut da, mut db, mut dc, mut dd) = (zero, zero, zero, zero);
+        let mut z = zero;
+        let mut dz = zero;
+        for f in &self.fast {
+            match *f {
+                Fast::SeriesCrystal {
+                    inv_cs,
+                    rm,
+                    lm,
+                    inv_cm,
+                    c0,
+                } => {
+                    for k in 0..LANES {
+                        // As in `abcd`: motional branch, C0 across, series capacitor.
+                        let (zr, zi) = (rm, w[k] * lm - inv_cm * inv_w[k]);
+                        let dzi = lm + inv_cm * inv_w[k] * inv_w[k];
+                        let (er, ei) = (1.0 - w[k] * c0 * zi, w[k] * c0 * zr);
+                        let s = 1.0 / (er * er + ei * ei);
+                        let (ir, ii) = (er * s, -ei * s);
+                        let (xr, xi) = (zr * ir - zi * ii, zr * ii + zi * ir);
+                        // dzm − jC0·zm²
+                        let (qr, qi) = (zr * zr - zi * zi, 2.0 * zr * zi);
+                        let (nr, ni) = (c0 * qi, dzi - c0 * qr);
+                        let (i2r, i2i) = (ir * ir - ii * ii, 2.0 * ir * ii);
+                        let zc = inv_cs * inv_w[k];
+                        z.re[k] = xr;
+                        z.im[k] = xi - zc;
+                        dz.re[k] = nr * i2r - ni * i2i;
+                        dz.im[k] = nr * i2i + ni * i2r + zc * inv_w[k];
+                    }
+                    // b += a·z, d += c·z, with derivatives.
+                    mul_add(&mut db, &da, &z);
+                    mul_add(&mut db, &a, &dz);
+                    mul_add(&mut dd, &dc, &z);
+                    mul_add(&mut dd, &c, &dz);
+                    mul_add(&mut b, &a, &z);
+                    mul_add(&mut d, &c, &z);
+                }
+                Fast::ShuntCap { c: cap } => {
+                    // a += b·y, c += d·y with y = jωC, dy/dω = jC.
+                    for k in 0..LANES {
+                        let y = w[k] * cap;
+                        da.re[k] += -db.im[k] * y - b.im[k] * cap;
+                        da.im[k] += db.re[k] * y + b.re[k] * cap;
+                        dc.re[k] += -dd.im[k] * y - d.im[k] * cap;
+                        dc.im[k] += dd.re[k] * y + d.re[k] * cap;
+                        a.re[k] += -b.im[k] * y;
+                        a.im[k] += b.re[k] * y;
+                        c.re[k] += -d.im[k] * y;
+                        c.im[k] += d.re[k] * y;
+                    }
+                }
+                Fast::General { .. } => unreachable!("response_lanes needs an all-fast ladder"),
+            }
+        }
+        let (rs, rl) = (self.source_ohm, self.load_ohm);
+        let rsrl = rs * rl;
+        let gain = 2.0 * rsrl.sqrt();
+        for k in 0..LANES {
+            let ar = C::new(a.re[k] * rl, a.im[k] * rl);
+            let bb = C::new(b.re[k], b.im[k]);
+            let crr = C::new(c.re[k] * rsrl, c.im[k] * rsrl);
+            let dr = C::new(d.re[k] * rs, d.im[k] * rs);
+            let den = ar + bb + crr + dr;
+            let dden = C::new(
+                da.re[k] * rl + db.re[k] + dc.re[k] * rsrl + dd.re[k] * rs,
+                da.im[k] * rl + db.im[k] + dc.im[k] * rsrl + dd.im[k] * rs,
+            );
+            let inv = recip(den);
+            out.f_hz.push(w[k] / (2.0 * PI));
+            out.s21.push(inv * gain);
+            out.s11.push((ar + bb - crr - dr) * inv);
+            out.s22.push((-ar + bb - crr + dr) * inv);
+            out.group_delay_s.push((dden * inv).im);
+        }
+    }
+
+    fn sweep_angular(&self, n: usize, w_at: impl Fn(usize) -> f64) -> Sweep {
+        let mut out = Sweep::with_capacity(n + LANES);
+        if self.all_fast() {
+            let mut i = 0;
+            let mut w = [0.0; LANES];
+            while i < n {
+                for (k, wk) in w.iter_mut().enumerate() {
+                    // Pad the last chunk with its last frequency; the extra points are dropped.
+                    *wk = w_at((i + k).min(n - 1));
+                }
+                self.response_lanes(&w, &mut out);
+                i += LANES;
+            }
+            out.f_hz.truncate(n);
+            out.s21.truncate(n);
+            out.s11.truncate(n);
+            out.s22.truncate(n);
+            out.group_delay_s.truncate(n);
+        } else {
+            for i in 0..n {
+                out.push(self.response_w(w_at(i)));
+            }
+        }
+        // Report the frequencies exactly as given, not as round-tripped through ω.
+        out
+    }
+}
+
 impl Analyze for Ladder {
     #[inline]
     fn response(&self, f_hz: f64) -> Response {
         self.response_w(2.0 * PI * f_hz)
+    }
+
+    fn sweep(&self, grid: &FrequencyGrid) -> Sweep {
+        let mut s = self.sweep_angular(grid.points(), |i| 2.0 * PI * grid.at(i));
+        for (i, f) in s.f_hz.iter_mut().enumerate() {
+            *f = grid.at(i);
+        }
+        s
+    }
+
+    fn sweep_at(&self, f_hz: &[f64]) -> Sweep {
+        if f_hz.is_empty() {
+            return Sweep::default();
+        }
+        let mut s = self.sweep_angular(f_hz.len(), |i| 2.0 * PI * f_hz[i]);
+        s.f_hz.copy_from_slice(f_hz);
+        s
     }
 }
