@@ -236,7 +236,9 @@ impl Ladder {
         self.fast.iter().all(|f| !matches!(f, Fast::General { .. }))
     }
 
-    /// Analyse `LANES` angular frequencies at once (only when [`Ladder::all_fast`]).
+    /// Analyse `LANES` angular frequencies at once (only when [`Ladder::all_fast`]). The lane
+    /// loops index several arrays in step, which is what lets them vectorize.
+    #[allow(clippy::needless_range_loop)]
     fn response_lanes(&self, w: &[f64; LANES], out: &mut Sweep) {
         let mut inv_w = [0.0; LANES];
         for k in 0..LANES {
