@@ -79,5 +79,78 @@ fn synthesis(c: &mut Criterion) {
     g.finish();
 }
 
-criterion_group!(benches, analysis, synthesis);
+/// Time against order (10,001 points) and against point count (8 crystals).
+fn scaling(c: &mut Criterion) {
+    let mut g = c.benchmark_group("scaling");
+    g.sample_size(10);
+    for n in [2, 4, 8, 12, 16] {
+        let lad = ladder(n);
+        let grid = FrequencyGrid::linear(8.99e6, 9.01e6, 10_001).unwrap();
+        g.bench_function(format!("order_{n}_x10001"), |b| {
+            b.iter(|| black_box(lad.sweep(&grid)))
+        });
+    }
+    let lad = ladder(8);
+    for points in [100, 1_000, 10_000, 100_000, 1_000_000] {
+        let grid = FrequencyGrid::linear(8.99e6, 9.01e6, points).unwrap();
+        g.bench_function(format!("order_8_x{points}"), |b| {
+            b.iter(|| black_box(lad.sweep(&grid)))
+        });
+    }
+    g.finish();
+}
+
+/// A 2,001-point sweep of one crystal in a 50 Ω fixture, with seeded noise, and a batch of
+/// 10,000 crystals to match.
+fn measurement(c: &mut Criterion) {
+    use filter_core::batch::{match_crystals, MatchRequest};
+    use filter_core::io::MeasuredTrace;
+    use filter_core::measure::{fit_sweep, fixture_s21, FixtureSpec};
+    use rand::{Rng, SeedableRng};
+    let mut rng = rand_chacha::ChaCha8Rng::seed_from_u64(5);
+    let x = Crystal::from_fs_lm("x", 9e6, 15e-3, 12.0, 4e-12).unwrap();
+    let fixture = FixtureSpec::default();
+    let f: Vec<f64> = (0..2001).map(|i| 8.995e6 + 12.0 * i as f64).collect();
+    let s21_db = f
+        .iter()
+        .map(|&fi| {
+            let h = fixture_s21(&x, &fixture, fi);
+            20.0 * h.norm().log10() + rng.gen_range(-0.02..0.02)
+        })
+        .collect();
+    let trace = MeasuredTrace {
+        f_hz: f,
+        s21_db,
+        s21_deg: None,
+        reference_ohm: None,
+    };
+    let mut g = c.benchmark_group("measurement");
+    g.sample_size(20);
+    g.bench_function("fit_2001_points", |b| {
+        b.iter(|| black_box(fit_sweep(&trace, &fixture, "x").unwrap()))
+    });
+    let batch: Vec<Crystal> = (0..10_000)
+        .map(|i| {
+            Crystal::from_fs_lm(
+                &format!("c{i}"),
+                9e6 + rng.gen_range(-150.0..150.0),
+                rng.gen_range(14e-3..16e-3),
+                rng.gen_range(8.0..14.0),
+                4e-12,
+            )
+            .unwrap()
+        })
+        .collect();
+    let req = MatchRequest {
+        count: 8,
+        sets: 10,
+        tolerance_hz: None,
+    };
+    g.bench_function("match_10000", |b| {
+        b.iter(|| black_box(match_crystals(&batch, &req).unwrap()))
+    });
+    g.finish();
+}
+
+criterion_group!(benches, analysis, synthesis, scaling, measurement);
 criterion_main!(benches);
