@@ -67,7 +67,7 @@ def main():
         with open(args.csv, "w") as fh:
             fh.write("frequency_hz,s21_db\n")
             for fi, hi in zip(f, h):
-                fh.write(f"{fi!r},{20 * np.log10(abs(hi))!r}\n")
+                fh.write(f"{float(fi)!r},{float(20 * np.log10(abs(hi)))!r}\n")
     return 0
 
 

@@ -86,13 +86,17 @@ pub fn build_from_parts(design: &Design, opts: &RoundingOptions) -> Result<AsBui
     let series_target: Vec<Option<f64>> = if opts.retune {
         (0..n)
             .map(|i| {
+                // Keep each mesh's reactance balance as the design has it (a refined design sits
+                // deliberately off the nominal tuning condition): the series capacitor takes up
+                // exactly the change in the shunt capacitors' reactance caused by rounding.
                 let x = design.crystals[i].impedance(f0).im;
-                let mut m = x;
+                let elastance = |c: Option<f64>| c.map_or(0.0, |c| 1.0 / (w0 * c));
+                let mut m = elastance(design.series_caps_f[i]);
                 if i > 0 {
-                    m -= 1.0 / (w0 * shunt[i - 1].value());
+                    m += 1.0 / (w0 * design.shunt_caps_f[i - 1]) - 1.0 / (w0 * shunt[i - 1].value());
                 }
                 if i + 1 < n {
-                    m -= 1.0 / (w0 * shunt[i].value());
+                    m += 1.0 / (w0 * design.shunt_caps_f[i]) - 1.0 / (w0 * shunt[i].value());
                 }
                 // Keep a wire where the design has one, unless re-tuning needs a capacitor.
                 if m <= 1e-9 * x.abs() {
@@ -112,10 +116,13 @@ pub fn build_from_parts(design: &Design, opts: &RoundingOptions) -> Result<AsBui
     } else {
         design.series_caps_f.clone()
     };
-    let series: Vec<Option<Choice>> = series_target
+    let mut series: Vec<Option<Choice>> = series_target
         .iter()
         .map(|c| c.map(pick).transpose())
         .collect::<Result<_>>()?;
+    if opts.retune {
+        choose_rounding_directions(design, &shunt, &series_target, &mut series, opts.series)?;
+    }
     let (source_ohm, load_ohm) = if opts.round_terminations {
         (
             crate::parts::nearest(design.source_ohm, opts.series)?,
@@ -149,6 +156,123 @@ pub fn build_from_parts(design: &Design, opts: &RoundingOptions) -> Result<AsBui
         built: perf,
         notes,
     })
+}
+
+/// The members of `series` just below and just above `value` (equal when it is a member).
+fn bracket(value: f64, series: Series) -> (f64, f64) {
+    let decade = 10f64.powf(value.log10().floor());
+    let mut below = f64::NEG_INFINITY;
+    let mut above = f64::INFINITY;
+    for scale in [decade / 10.0, decade, decade * 10.0] {
+        for &m in series.mantissas() {
+            // Build the value as the parts module does (exact decimal mantissa times a power
+            // of ten), so members compare equal.
+            let v = m * scale;
+            if v <= value * (1.0 + 1e-12) && v > below {
+                below = v;
+            }
+            if v >= value * (1.0 - 1e-12) && v < above {
+                above = v;
+            }
+        }
+    }
+    (below, above)
+}
+
+/// Re-tuning, second half: each rounded series capacitor may go to the series member below or
+/// above its re-solved value. Coordinate descent over the meshes picks, for each, the direction
+/// that brings the as-built |S21| closest to the ideal one (mean square dB difference over the
+/// ideal −6 dB band, plus the square of any ripple rounding adds); two passes. Parallel pairs are already close and are left as chosen.
+fn choose_rounding_directions(
+    design: &Design,
+    shunt: &[Choice],
+    targets: &[Option<f64>],
+    series: &mut [Option<Choice>],
+    s: Series,
+) -> Result<()> {
+    use crate::network::{db, Analyze};
+    let ideal_ladder = design.to_ladder()?;
+    let p = design.performance;
+    let [lo, hi] = p.edges_6db_hz;
+    let f: Vec<f64> = (0..121)
+        .map(|i| lo + (hi - lo) * i as f64 / 120.0)
+        .collect();
+    let ideal: Vec<f64> = ideal_ladder
+        .sweep_at(&f)
+        .s21
+        .iter()
+        .map(|&x| db(x))
+        .collect();
+    let shunt_f: Vec<f64> = shunt.iter().map(Choice::value).collect();
+    let cost = |series: &[Option<Choice>]| -> Result<f64> {
+        let caps: Vec<Option<f64>> = series
+            .iter()
+            .map(|c| c.as_ref().map(Choice::value))
+            .collect();
+        let lad = crate::design::ladder_from_parts(
+            &design.crystals,
+            &caps,
+            &shunt_f,
+            design.source_ohm,
+            design.load_ohm,
+            crate::network::Loss::Lossless,
+        )?;
+        let got = lad.sweep_at(&f);
+        let shape = got
+            .s21
+            .iter()
+            .zip(&ideal)
+            .map(|(x, y)| (db(*x) - y).powi(2))
+            .sum::<f64>()
+            / f.len() as f64;
+        // Ripple added by rounding counts on its own: it is what a builder sees first.
+        let extra_ripple = match crate::synthesis::predict_ladder(&lad, p.center_hz, p.bw_3db_hz) {
+            Ok(q) => (q.ripple_db - p.ripple_db).max(0.0),
+            Err(_) => return Ok(f64::INFINITY),
+        };
+        Ok(shape + 100.0 * extra_ripple * extra_ripple)
+    };
+    // Start from the better of the re-solved values and plain rounding of the design's own.
+    let plain: Vec<Option<Choice>> = design
+        .series_caps_f
+        .iter()
+        .map(|c| c.map(|c| choose(c, s, false, 1.0)).transpose())
+        .collect::<Result<_>>()?;
+    let mut best = cost(series)?;
+    let plain_cost = cost(&plain)?;
+    if plain_cost < best
+        && plain
+            .iter()
+            .zip(series.iter())
+            .all(|(a, b)| a.is_some() == b.is_some())
+    {
+        series.copy_from_slice(&plain);
+        best = plain_cost;
+    }
+    for _ in 0..2 {
+        for i in 0..series.len() {
+            let (Some(target), Some(Choice::Single(current))) = (targets[i], series[i]) else {
+                continue;
+            };
+            let (below, above) = bracket(target, s);
+            let original = design.series_caps_f[i].map_or(f64::NAN, |c| bracket(c, s).0);
+            let original_up = design.series_caps_f[i].map_or(f64::NAN, |c| bracket(c, s).1);
+            for alt in [below, above, original, original_up] {
+                if !alt.is_finite() || alt == current {
+                    continue;
+                }
+                let keep = series[i];
+                series[i] = Some(Choice::Single(alt));
+                let c = cost(series)?;
+                if c < best {
+                    best = c;
+                } else {
+                    series[i] = keep;
+                }
+            }
+        }
+    }
+    Ok(())
 }
 
 #[cfg(test)]

@@ -52,7 +52,7 @@ use crate::crystal::Crystal;
 use crate::design::{
     ladder_from_parts, BandwidthAt, Design, DesignSpec, ResponseFamily, DESIGN_SCHEMA_VERSION,
 };
-use crate::error::{require_positive, Error, Result};
+use crate::error::{require_positive, Error, ErrorKind, Result};
 use crate::metrics::{evaluate, Performance};
 use crate::network::{Analyze, Branch, Element, Ladder, Loss, Stage};
 use crate::prototype::{Family, Prototype, MAX_ORDER};
@@ -254,7 +254,20 @@ impl LadderSpec {
         let b3_target = b_norm * lp.w3;
         design.performance = predict_ladder(&design.to_ladder()?, f0, b3_target)?;
         if self.refine {
-            refine::refine(&mut design, &lp_used, b_norm, b3_target)?;
+            refine::refine(&mut design, &lp_used, b_norm, b3_target).map_err(|e| {
+                if e.kind() == ErrorKind::Numerical {
+                    // Say what the user can do: the plain synthesis is still available.
+                    Error::unrealizable(format!(
+                        "refinement on the exact model did not succeed for this request ({})",
+                        e.message()
+                    ))
+                    .with_hint(
+                        "design without --refine, or with a narrower bandwidth or a lower order",
+                    )
+                } else {
+                    e
+                }
+            })?;
         }
         check_against_spec(&mut design, b_norm, &lp);
         Ok(design)
@@ -301,13 +314,33 @@ pub fn nominal_b3(design: &Design) -> f64 {
     }
 }
 
-pub(crate) fn predict_ladder(ladder: &Ladder, f0: f64, b3: f64) -> Result<Performance> {
+/// Predicted performance of a ladder whose mesh-tuning centre is `f0` and whose −3 dB width is
+/// about `b3` (it sizes the analysis window).
+///
+/// # Errors
+/// When no passband of about that width lies in the window.
+pub fn predict_ladder(ladder: &Ladder, f0: f64, b3: f64) -> Result<Performance> {
     // The passband lies within about a bandwidth of the mesh-tuning centre; the skirt search
     // in `evaluate` walks further out for the −60 dB points.
     let half = 2.5 * b3;
     // ~120 points per bandwidth: ten or more per ripple at order 12; every crossing and
     // extremum is then refined on the circuit itself.
-    evaluate(ladder, f0 - half, f0 + half, 601)
+    evaluate(ladder, f0 - half, f0 + half, 601).map_err(|e| {
+        // The window is the design's own, so a passband that does not fit in it ("sweep
+        // range", or a band lost while refining the crossings) means the ladder is nothing
+        // like the bandwidth asked for (typically tuned past the crystals' limit, where the
+        // meshes only resonate close to fp); the window is not the user's. Other errors
+        // (component values out of range) pass through.
+        let window = e.kind() == ErrorKind::Numerical || e.message().starts_with("sweep range");
+        if !window {
+            return e;
+        }
+        Error::unrealizable(format!(
+            "the ladder has no passband of about {b3:.1} Hz (−3 dB) within {half:.1} Hz of its centre {f0:.1} Hz ({})",
+            e.message()
+        ))
+        .with_hint("the crystals cannot hold this bandwidth: use a narrower bandwidth, a lower order, or crystals with a larger Cm/C0 ratio")
+    })
 }
 
 fn check_against_spec(design: &mut Design, _b_norm: f64, lp: &LowpassData) {
@@ -752,7 +785,29 @@ pub fn bandwidth_limit_hz(crystals: &[Crystal], g: &[f64]) -> f64 {
 }
 
 fn unrealizable_error(crystals: &[Crystal], g: &[f64], b_norm: f64) -> Error {
+    // A crystal is inductive somewhere only while 2·Rm·ω·C0 < 1: Im(1/Z) = ω·C0 − X/(Rm² + X²)
+    // and X/(Rm² + X²) peaks at 1/(2·Rm). A crystal that never is cannot be tuned at any
+    // bandwidth, so say that rather than quote a bandwidth limit.
+    for c in crystals {
+        let product = 2.0 * c.rm_ohm() * 2.0 * PI * c.fs_hz() * c.c0_f;
+        if product >= 1.0 {
+            return Error::unrealizable(format!(
+                "crystal '{}' is never inductive, so no mesh can be tuned with it: 2·Rm·ω·C0 = {product:.3} at fs (Rm = {:.1} Ω, C0 = {:.3} pF) must be below 1",
+                c.id,
+                c.rm_ohm(),
+                c.c0_f * 1e12
+            ))
+            .with_hint("use crystals with a lower Rm (a higher Qu) or a smaller C0");
+        }
+    }
     let limit = bandwidth_limit_hz(crystals, g);
+    if !limit.is_finite() {
+        // One crystal (no coupling) or C0 = 0 (no fp): no fp − fs limit applies.
+        return Error::unrealizable(format!(
+            "the crystals cannot be tuned for this bandwidth: no frequency up to 5 % above fs lets every mesh resonate at a prototype-edge bandwidth of {b_norm:.0} Hz"
+        ))
+        .with_hint("use a narrower bandwidth or a lower order");
+    }
     Error::unrealizable(format!(
         "the crystals cannot be tuned for this bandwidth: it needs a prototype-edge bandwidth of {b_norm:.0} Hz, but these crystals (fp − fs = {:.0} Hz) allow about {limit:.0} Hz",
         fp_minus_fs(crystals)

@@ -57,7 +57,8 @@ impl Problem<'_> {
             .iter()
             .map(|u| {
                 let s = u * u;
-                if s <= 0.0 {
+                // Below a milliohm of reactance the capacitor is a wire (it would be farads).
+                if s <= 1e-3 {
                     None
                 } else {
                     Some(1.0 / (self.w0 * s))
