@@ -14,6 +14,9 @@ use clap::{Args, Parser, Subcommand, ValueEnum};
 use filter_core::units::{Decibels, Farads, Henries, Hertz, Ohms};
 use std::path::PathBuf;
 
+mod build;
+pub use build::*;
+
 const ABOUT: &str = "Design crystal ladder band-pass filters from the crystals on your bench.";
 
 const LONG_ABOUT: &str = "\
@@ -33,6 +36,9 @@ The job, step by step:
   xtal-ladder analyze design.json --plot filter.svg
   xtal-ladder netlist design.json -o filter.cir
   xtal-ladder touchstone design.json -o filter.s2p
+  xtal-ladder parts design.json --series E24 --pairs --as-built built.json
+  xtal-ladder yield built.json --trials 2000 --cap-tol 5 --fs-sigma 20
+  xtal-ladder report design.json -o report.html           one page for the bench
   xtal-ladder demo                                        all of it on built-in data
 
 Exit codes: 0 success; 2 bad input, usage or a filter the crystals cannot realize;
@@ -49,13 +55,45 @@ Exit codes: 0 success; 2 bad input, usage or a filter the crystals cannot realiz
     disable_help_subcommand = true
 )]
 pub struct Cli {
-    /// Output format: text for people, json (one object on stdout), csv for tables.
-    #[arg(long, global = true, value_enum, default_value_t = Format::Text)]
-    pub format: Format,
+    /// Output format: text for people, json (one object on stdout), csv for tables, md
+    /// (Markdown) for the parts list.
+    #[arg(long, global = true, value_enum, default_value_t = FormatArg::Text)]
+    pub format: FormatArg,
 
     /// What to do.
     #[command(subcommand)]
     pub command: Option<Command>,
+}
+
+/// The `--format` the user typed: [`Format`], or Markdown (for the parts list only).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum FormatArg {
+    /// Readable text with engineering notation.
+    Text,
+    /// One JSON object.
+    Json,
+    /// Comma-separated values with a header row (where the result is a table).
+    Csv,
+    /// A Markdown table (the parts list).
+    Md,
+}
+
+impl FormatArg {
+    /// The format of a subcommand that prints no Markdown; `None` for `md`.
+    pub fn plain(self) -> Option<Format> {
+        match self {
+            FormatArg::Text => Some(Format::Text),
+            FormatArg::Json => Some(Format::Json),
+            FormatArg::Csv => Some(Format::Csv),
+            FormatArg::Md => None,
+        }
+    }
+}
+
+impl PartialEq<Format> for FormatArg {
+    fn eq(&self, other: &Format) -> bool {
+        self.plain() == Some(*other)
+    }
 }
 
 /// How results are printed on stdout.
@@ -180,6 +218,18 @@ Example:
   xtal-ladder demo
   xtal-ladder demo --out /tmp/demo --format json")]
     Demo(DemoCmd),
+
+    /// The parts list: standard values, re-tuned series capacitors, the as-built response.
+    #[command(after_help = PARTS_HELP)]
+    Parts(PartsCmd),
+
+    /// Tolerance yield: Monte Carlo over capacitor tolerance and crystal spread.
+    #[command(after_help = YIELD_HELP)]
+    Yield(YieldCmd),
+
+    /// One self-contained HTML page of a design for the bench, from parts to yield.
+    #[command(after_help = REPORT_HELP)]
+    Report(ReportCmd),
 }
 
 // --------------------------------------------------------------------------------------------
@@ -443,6 +493,9 @@ pub struct AnalyzeCmd {
     /// The response table (CSV) goes to this file; stdout keeps the metrics.
     #[command(flatten)]
     pub output: OutputArg,
+    /// Print the time of the sweep alone on stderr: `analysis: X.XXX ms for N points`.
+    #[arg(long)]
+    pub timing: bool,
 }
 
 /// `netlist`.

@@ -11,6 +11,7 @@ mod errors;
 mod files;
 mod flags;
 mod progress;
+mod report;
 mod text;
 
 use clap::error::ErrorKind as ClapErrorKind;
@@ -26,7 +27,7 @@ fn main() -> ExitCode {
     let Some(command) = cli.command else {
         eprintln!(
             "error: no subcommand given; use one of crystal, fit, shift, match, design, \
-             analyze, netlist, touchstone, demo"
+             analyze, netlist, touchstone, parts, yield, report, demo"
         );
         eprintln!("hint: 'xtal-ladder --help' shows each with an example");
         return ExitCode::from(errors::EXIT_BAD_INPUT);

@@ -15,6 +15,9 @@ mod cli {
     mod fit;
     mod matching;
     mod netlist;
+    mod parts;
+    mod report;
     mod shift;
     mod touchstone;
+    mod yield_;
 }

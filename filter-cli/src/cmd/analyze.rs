@@ -51,7 +51,15 @@ pub fn run(cmd: &AnalyzeCmd, format: Format) -> Result<()> {
         (passband_window(&design), DEFAULT_POINTS)
     };
     let win = window(&cmd.range, default, points)?;
+    let started = std::time::Instant::now();
     let sweep = sweep_of(&ladder, &win)?;
+    if cmd.timing {
+        eprintln!(
+            "analysis: {:.3} ms for {} points",
+            started.elapsed().as_secs_f64() * 1e3,
+            win.points
+        );
+    }
     // The figures are refined on the circuit, so they do not depend on the grid. A table of
     // part of the response (say one skirt) needs no passband, so CSV output goes on without.
     let metrics = evaluate(&ladder, win.from_hz, win.to_hz, win.points).context("analysis window");

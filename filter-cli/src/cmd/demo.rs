@@ -43,7 +43,7 @@ use std::path::{Path, PathBuf};
 pub const MARKER: &str = ".xtal-ladder-demo";
 
 /// Every file the demo writes (besides the marker).
-pub const DEMO_FILES: [&str; 13] = [
+pub const DEMO_FILES: [&str; 19] = [
     "batch.csv",
     "fit-x01.svg",
     "fit-x23.svg",
@@ -57,6 +57,12 @@ pub const DEMO_FILES: [&str; 13] = [
     "wide.svg",
     "filter.cir",
     "filter.s2p",
+    "parts.csv",
+    "parts.md",
+    "built-design.json",
+    "yield.json",
+    "envelope.svg",
+    "report.html",
 ];
 
 /// The filter the builder wants.
@@ -238,6 +244,9 @@ pub fn run(cmd: &DemoCmd, format: Format) -> Result<()> {
     export(&design, dir)?;
     log +=
         "5. export: wrote filter.cir (SPICE, runs in ngspice -b) and filter.s2p (Touchstone 1.1)\n";
+
+    // 6. Build: parts from the drawer, the yield of the as-built ladder, the report page.
+    log += &build(&design, dir)?;
     write_marker(dir)?;
     log += &format!("all files are in {}\n", dir.display());
 
@@ -386,4 +395,99 @@ fn export(design: &Design, dir: &Path) -> Result<()> {
         .context("touchstone")?;
         Ok(())
     })
+}
+
+/// The tolerances of the demo's yield run: E24 capacitors are ±5 % parts; the crystals' fs
+/// moves by some 10 Hz between the fixture and the finished filter (drive level, temperature,
+/// soldering: our assumption for the scenario); 2000 trials keep the demo quick.
+const YIELD_TRIALS: usize = 2000;
+const YIELD_CAP_TOL_PCT: f64 = 5.0;
+const YIELD_FS_SIGMA_HZ: f64 = 10.0;
+/// The builder's system impedance (the radio's IF strip).
+const SYSTEM_OHMS: f64 = 50.0;
+
+/// Parts list, as-built design, yield report with its envelope, and the report page.
+fn build(design: &Design, dir: &Path) -> Result<String> {
+    use crate::flags::{LimitArgs, MatchArgs, MatchFormArg, Percent, RoundingArgs, ToleranceArgs};
+    use filter_core::parts::{Series, DEFAULT_PAIR_GAIN};
+    use filter_core::units::{Hertz, Ohms};
+    let rounding = RoundingArgs {
+        series: Series::E24,
+        pairs: true,
+        pair_gain: DEFAULT_PAIR_GAIN,
+        no_retune: false,
+        round_terminations: false,
+    };
+    let matching = MatchArgs {
+        match_to: Some(Ohms(SYSTEM_OHMS)),
+        match_form: MatchFormArg::Lowpass,
+    };
+    let tolerance = ToleranceArgs {
+        trials: YIELD_TRIALS,
+        cap_tol: Percent(YIELD_CAP_TOL_PCT),
+        gaussian_caps: false,
+        fs_sigma: Hertz(YIELD_FS_SIGMA_HZ),
+        lm_sigma: Percent(0.0),
+        rm_sigma: Percent(0.0),
+        seed: 0,
+        trial_points: 1001,
+    };
+    let limits = LimitArgs {
+        max_ripple: None,
+        bw6_tol: None,
+        max_loss: None,
+    };
+    let report = super::report::build_report(
+        design,
+        Path::new("design.json"),
+        &rounding,
+        &matching,
+        &tolerance,
+        &limits,
+    )?;
+    let parts = &report.parts;
+    files::write_atomic(&dir.join("parts.csv"), |w| {
+        super::parts::write_csv(parts, w)
+    })?;
+    let md = super::parts::markdown(parts, "parts for design.json");
+    files::write_bytes(&dir.join("parts.md"), md.as_bytes())?;
+    let built_json = parts.built.design.to_json();
+    files::write_atomic(&dir.join("built-design.json"), |w| {
+        w.write_all(built_json.as_bytes())?;
+        writeln!(w)?;
+        Ok(())
+    })?;
+    let p = &parts.built.built;
+    let mut log = format!(
+        "6. build: {} positions from {}, matched to {}: as built ripple {}, \
+         −6 dB {}, loss {}, return loss {}\n",
+        parts.rows.len(),
+        super::parts::options_text(&parts.options),
+        text::si(SYSTEM_OHMS, "Ω"),
+        text::db(p.ripple_db),
+        text::width(p.bw_6db_hz),
+        text::db(p.insertion_loss_db),
+        text::db(p.return_loss_db),
+    );
+    if let Some((spec, r)) = &report.yield_run {
+        let v = super::yield_cmd::yield_json("built-design.json", spec, r)?;
+        files::write_atomic(&dir.join("yield.json"), |w| {
+            serde_json::to_writer_pretty(&mut *w, &v).context("yield.json")?;
+            writeln!(w)?;
+            Ok(())
+        })?;
+        let svg = super::yield_cmd::envelope(&parts.built.design, r, spec, None)?;
+        files::write_bytes(&dir.join("envelope.svg"), svg.as_bytes())?;
+        log += &format!(
+            "   yield: {} of {} trials pass ({}) with {}\n",
+            r.passed,
+            r.trials,
+            text::num(100.0 * r.yield_fraction, 3) + " %",
+            super::yield_cmd::spread_text(spec)
+        );
+    }
+    files::write_bytes(&dir.join("report.html"), report.html.as_bytes())?;
+    log +=
+        "   wrote parts.csv, parts.md, built-design.json, yield.json, envelope.svg, report.html\n";
+    Ok(log)
 }

@@ -8,12 +8,15 @@ mod design;
 mod fit;
 mod matching;
 mod netlist;
+mod parts;
+mod report;
 mod shift;
 mod touchstone;
+mod yield_cmd;
 
 use crate::errors::{bad, bad_hint};
 use crate::files;
-use crate::flags::{Command, CrystalArgs, Format, RangeArgs};
+use crate::flags::{Command, CrystalArgs, Format, FormatArg, RangeArgs};
 use anyhow::{Context, Result};
 use filter_core::design::Design;
 use filter_core::Crystal;
@@ -24,17 +27,29 @@ use std::path::{Path, PathBuf};
 ///
 /// # Errors
 /// Everything that can go wrong, with context; [`crate::errors::classify`] picks the exit code.
-pub fn run(command: Command, format: Format) -> Result<()> {
+pub fn run(command: Command, format: FormatArg) -> Result<()> {
+    // Markdown is for the parts list; every other subcommand takes text, json or csv.
+    let plain = || {
+        format.plain().ok_or_else(|| {
+            bad_hint(
+                "--format md is only available for 'parts'",
+                "use --format text, json or csv",
+            )
+        })
+    };
     match command {
-        Command::Crystal(c) => crystal::run(&c, format),
-        Command::Fit(c) => fit::run(&c, format),
-        Command::Shift(c) => shift::run(&c, format),
-        Command::Match(c) => matching::run(&c, format),
-        Command::Design(c) => design::run(&c, format),
-        Command::Analyze(c) => analyze::run(&c, format),
-        Command::Netlist(c) => netlist::run(&c, format),
-        Command::Touchstone(c) => touchstone::run(&c, format),
-        Command::Demo(c) => demo::run(&c, format),
+        Command::Crystal(c) => crystal::run(&c, plain()?),
+        Command::Fit(c) => fit::run(&c, plain()?),
+        Command::Shift(c) => shift::run(&c, plain()?),
+        Command::Match(c) => matching::run(&c, plain()?),
+        Command::Design(c) => design::run(&c, plain()?),
+        Command::Analyze(c) => analyze::run(&c, plain()?),
+        Command::Netlist(c) => netlist::run(&c, plain()?),
+        Command::Touchstone(c) => touchstone::run(&c, plain()?),
+        Command::Demo(c) => demo::run(&c, plain()?),
+        Command::Parts(c) => parts::run(&c, format),
+        Command::Yield(c) => yield_cmd::run(&c, plain()?),
+        Command::Report(c) => report::run(&c, plain()?),
     }
 }
 

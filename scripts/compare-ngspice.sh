@@ -1,0 +1,289 @@
+#!/usr/bin/env bash
+# Speed of `xtal-ladder analyze` against ngspice (and numpy) on the same circuit and the same
+# sweep, after checking that they compute the same response.
+#
+# For the demo design (examples/demo-design.json) over its default analysis window with
+# 10,001 linear points:
+#   - whole process: `xtal-ladder analyze … --format csv > FILE` against `ngspice -b … > FILE`
+#     on the netlist `xtal-ladder netlist` writes for the same points, runs alternating;
+#   - analysis alone: the in-process time of the sweep (`analyze --timing`) against ngspice's
+#     whole-process time minus that of an 11-point run of the same netlist (start-up, parsing
+#     and output of a few lines);
+#   - numpy: scripts/numpy_ladder.py's in-process time of the same chain-matrix analysis,
+#     vectorized over frequency;
+#   - agreement: |S21| of analyze, ngspice and numpy within 0.02 dB wherever S21 > -60 dB
+#     (the passband and skirts), so that the times are of the same work.
+# Without --short a 12-crystal design at 100,001 points is timed too.
+#
+# Usage: bash scripts/compare-ngspice.sh [--short]
+#   --short   5 runs of each instead of 15, no 12-crystal case (well under a minute once the
+#             release build is there).
+# Exit status: 0 when the responses agree (the speed targets are reported, not enforced:
+# >= 15x whole process, >= 100x analysis alone, >= 5x numpy in-process); 1 when they do not
+# agree or a tool fails.
+set -euo pipefail
+cd "$(dirname "$0")/.."
+
+short=0
+case "${1:-}" in
+  --short) short=1 ;;
+  "") ;;
+  *) echo "usage: bash scripts/compare-ngspice.sh [--short]" >&2; exit 2 ;;
+esac
+
+for tool in ngspice python3 cargo; do
+  command -v "$tool" >/dev/null 2>&1 || { echo "compare-ngspice: $tool not found" >&2; exit 1; }
+done
+
+build_start=$(date +%s)
+cargo build --release -q -p filter-cli
+echo "release build: $(( $(date +%s) - build_start )) s"
+
+exec python3 - "$short" <<'PYTHON'
+import json
+import os
+import re
+import shutil
+import statistics
+import subprocess
+import sys
+import tempfile
+import time
+
+SHORT = sys.argv[1] == "1"
+RUNS = 5 if SHORT else 15
+POINTS = 10001
+SMALL_POINTS = 11
+# Agreement limit and where it applies: the contract between analyze and ngspice (passband
+# and skirts, S21 > -60 dB).
+LIMIT_DB = 0.02
+FLOOR_DB = -60.0
+BIN = os.path.join("target", "release", "xtal-ladder")
+DESIGN = os.path.join("examples", "demo-design.json")
+TMP = tempfile.mkdtemp(prefix="compare-ngspice-")
+started = time.perf_counter()
+
+
+def fail(msg):
+    print(f"compare-ngspice: {msg}", file=sys.stderr)
+    sys.exit(1)
+
+
+def run(args, stdout=subprocess.DEVNULL):
+    """Run a command; return (seconds, stderr text)."""
+    t0 = time.perf_counter()
+    p = subprocess.run(args, stdout=stdout, stderr=subprocess.PIPE, text=True)
+    dt = time.perf_counter() - t0
+    if p.returncode != 0:
+        fail(f"{' '.join(args)} exited {p.returncode}:\n{p.stderr}")
+    return dt, p.stderr
+
+
+def output(args):
+    p = subprocess.run(args, capture_output=True, text=True)
+    if p.returncode != 0:
+        fail(f"{' '.join(args)} exited {p.returncode}:\n{p.stderr}")
+    return p.stdout
+
+
+SCALE = {"f": 1e-15, "p": 1e-12, "n": 1e-9, "u": 1e-6, "m": 1e-3, "k": 1e3, "g": 1e9, "t": 1e12}
+
+
+def spice_number(text):
+    m = re.fullmatch(r"([+-]?(?:\d+\.?\d*|\.\d+)(?:[eE][+-]?\d+)?)([a-zA-Z]*)", text)
+    if not m:
+        fail(f"not a SPICE number: {text!r}")
+    v, s = float(m.group(1)), m.group(2).lower()
+    if s.startswith("meg"):
+        return v * 1e6
+    return v * SCALE.get(s[:1], 1.0) if s else v
+
+
+def netlist_ends(path):
+    """The source EMF E, Rs and RL of a netlist written by `xtal-ladder netlist`."""
+    emf = rs = rl = None
+    src = None
+    for line in open(path):
+        c = line.split()
+        if not c or c[0].startswith("*"):
+            continue
+        name = c[0].upper()
+        if name.startswith("V") and "AC" in [x.upper() for x in c]:
+            src = c[1]
+            emf = spice_number(c[[x.upper() for x in c].index("AC") + 1])
+    for line in open(path):
+        c = line.split()
+        if len(c) >= 4 and c[0].upper().startswith("R"):
+            if src in (c[1], c[2]):
+                rs = spice_number(c[3])
+            if sorted([c[1].lower(), c[2]]) == ["0", "out"]:
+                rl = spice_number(c[3])
+    if None in (emf, rs, rl):
+        fail(f"cannot find the source and load of {path}")
+    return emf, rs, rl
+
+
+def ngspice_table(path, netlist):
+    """(f, s21_db) from ngspice's printed vdb(out): S21 = 2*sqrt(Rs/RL)*V(out)/E."""
+    import math
+    emf, rs, rl = netlist_ends(netlist)
+    shift = 20 * math.log10(2 / emf) + 10 * math.log10(rs / rl)
+    rows = []
+    for line in open(path):
+        c = line.split()
+        if len(c) >= 3 and c[0].isdigit():
+            rows.append((float(c[1]), float(c[2]) + shift))
+    return rows
+
+
+def number(cell):
+    """A CSV number; numpy_ladder.py's repr() of a numpy 2 scalar reads np.float64(...)."""
+    cell = cell.strip()
+    m = re.fullmatch(r"np\.float64\((.*)\)", cell)
+    return float(m.group(1) if m else cell)
+
+
+def csv_table(path, column="s21_db"):
+    with open(path) as fh:
+        header = fh.readline().strip().split(",")
+        k = header.index(column)
+        return [(number(r[0]), number(r[k])) for r in (l.split(",") for l in fh if l.strip())]
+
+
+def agreement(a, b, what):
+    """Largest |difference| where a > FLOOR_DB, and over all points; same frequencies."""
+    if len(a) != len(b):
+        fail(f"{what}: {len(a)} against {len(b)} points")
+    inside = []
+    overall = 0.0
+    for (fa, ya), (fb, yb) in zip(a, b):
+        if abs(fa - fb) > 1e-9 * abs(fa):
+            fail(f"{what}: frequencies differ ({fa!r} against {fb!r})")
+        d = abs(ya - yb)
+        overall = max(overall, d)
+        if ya > FLOOR_DB:
+            inside.append(d)
+    if not inside:
+        fail(f"{what}: no point above {FLOOR_DB} dB")
+    return max(inside), len(inside), overall
+
+
+def window(design):
+    v = json.loads(output([BIN, "analyze", design, "--format", "json"]))
+    return v["from_hz"], v["to_hz"]
+
+
+def case(design, points, runs, label):
+    f1, f2 = window(design)
+    rng = ["--from", repr(f1), "--to", repr(f2)]
+    big = os.path.join(TMP, f"{label}.cir")
+    small = os.path.join(TMP, f"{label}-small.cir")
+    output([BIN, "netlist", design, *rng, "--points", str(points), "-o", big])
+    output([BIN, "netlist", design, *rng, "--points", str(SMALL_POINTS), "-o", small])
+    csv = os.path.join(TMP, f"{label}.csv")
+    spice_out = os.path.join(TMP, f"{label}.out")
+    # Both programs print their table on stdout, redirected to a file.
+    analyze = [BIN, "analyze", design, *rng, "--points", str(points), "--format", "csv",
+               "--timing"]
+
+    def time_analyze():
+        with open(csv, "w") as fh:
+            dt, err = run(analyze, stdout=fh)
+        m = re.search(r"analysis: ([0-9.]+) ms for (\d+) points", err)
+        if not m or int(m.group(2)) != points:
+            fail(f"no timing line from analyze --timing:\n{err}")
+        return dt, float(m.group(1)) / 1e3
+
+    def time_spice(netlist, out):
+        with open(out, "w") as fh:
+            return run(["ngspice", "-b", netlist], stdout=fh)[0]
+
+    # Warm the caches once, then alternate which program goes first.
+    time_analyze()
+    time_spice(big, spice_out)
+    time_spice(small, os.devnull)
+    ours, ours_in, spice, spice_small = [], [], [], []
+    for i in range(runs):
+        steps = [("a", None), ("s", None), ("m", None)]
+        if i % 2:
+            steps.reverse()
+        for s, _ in steps:
+            if s == "a":
+                w, a = time_analyze()
+                ours.append(w)
+                ours_in.append(a)
+            elif s == "s":
+                spice.append(time_spice(big, spice_out))
+            else:
+                spice_small.append(time_spice(small, os.devnull))
+    a = csv_table(csv)
+    s = ngspice_table(spice_out, big)
+    worst, n_inside, overall = agreement(a, s, f"{label}: analyze against ngspice")
+    return {
+        "label": label, "design": design, "points": points, "runs": runs, "range": rng,
+        "csv": csv, "whole": statistics.median(ours), "inproc": statistics.median(ours_in),
+        "spice": statistics.median(spice), "spice_small": statistics.median(spice_small),
+        "ratio": statistics.median(b / a for a, b in zip(ours, spice)),
+        "worst": worst, "inside": n_inside, "overall": overall,
+    }
+
+
+def numpy_case(c, repeat):
+    out_csv = os.path.join(TMP, f"{c['label']}-numpy.csv")
+    rng = c["range"]
+    text = output(["python3", os.path.join("scripts", "numpy_ladder.py"), c["design"],
+                   "--from", rng[1], "--to", rng[3], "--points", str(c["points"]),
+                   "--repeat", str(repeat), "--csv", out_csv])
+    m = re.search(r"median ([0-9.]+) ms", text)
+    if not m:
+        fail(f"no timing from numpy_ladder.py:\n{text}")
+    worst, n_inside, _ = agreement(csv_table(c["csv"]), csv_table(out_csv),
+                                   f"{c['label']}: analyze against numpy")
+    return float(m.group(1)) / 1e3, worst, n_inside
+
+
+def ms(s):
+    return f"{s * 1e3:9.3f} ms"
+
+
+def table(c, np_time):
+    spice_analysis = max(c["spice"] - c["spice_small"], 0.0)
+    rows = [
+        ("whole process", c["whole"], c["spice"], "ngspice", c["ratio"], 15),
+        ("analysis alone", c["inproc"], spice_analysis, "ngspice", spice_analysis / c["inproc"],
+         100),
+    ]
+    if np_time is not None:
+        rows.append(("in-process", c["inproc"], np_time, "numpy", np_time / c["inproc"], 5))
+    print(f"\n{c['label']}: {c['points']} points, median of {c['runs']} alternating runs")
+    print(f"  {'':16} {'xtal-ladder':>12} {'other':>12}            {'ratio':>8}  target")
+    for name, ours, other, who, ratio, target in rows:
+        flag = "met" if ratio >= target else "NOT met"
+        print(f"  {name:16} {ms(ours)} {ms(other)} {who:<8} {ratio:7.1f}x  >= {target}x {flag}")
+    print(f"  ngspice 11-point run (start-up and parsing): {ms(c['spice_small']).strip()}")
+    print(f"  agreement with ngspice: max |dS21| {c['worst']:.2e} dB over {c['inside']} points "
+          f"above {FLOOR_DB:g} dB (limit {LIMIT_DB} dB); {c['overall']:.2e} dB over all points")
+
+
+demo = case(DESIGN, POINTS, RUNS, "demo design")
+np_time, np_worst, np_inside = numpy_case(demo, 20 if SHORT else 50)
+table(demo, np_time)
+print(f"  agreement with numpy: max |dS21| {np_worst:.2e} dB over {np_inside} points")
+failed = demo["worst"] > LIMIT_DB or np_worst > LIMIT_DB
+
+if not SHORT:
+    big_design = os.path.join(TMP, "twelve.json")
+    output([BIN, "design", "--fs", "9.8304M", "--lm", "17m", "--rm", "10", "--c0", "3.9p",
+            "--order", "12", "--family", "chebyshev", "--ripple", "0.1", "--bandwidth", "2.4k",
+            "--bandwidth-at", "6db", "-o", big_design])
+    big = case(big_design, 100001, 5, "12 crystals")
+    np_big, np_big_worst, _ = numpy_case(big, 10)
+    table(big, np_big)
+    failed = failed or big["worst"] > LIMIT_DB or np_big_worst > LIMIT_DB
+
+print(f"\ncompare-ngspice: {time.perf_counter() - started:.1f} s")
+if failed:
+    fail(f"the responses differ by more than {LIMIT_DB} dB above {FLOOR_DB:g} dB; "
+         f"the files are in {TMP}")
+shutil.rmtree(TMP, ignore_errors=True)
+PYTHON
