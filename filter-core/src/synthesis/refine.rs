@@ -57,8 +57,7 @@ impl Problem<'_> {
             .iter()
             .map(|u| {
                 let s = u * u;
-                // Below a milliohm of reactance the capacitor is a wire (it would be farads).
-                if s <= 1e-3 {
+                if s <= 0.0 {
                     None
                 } else {
                     Some(1.0 / (self.w0 * s))
@@ -348,8 +347,16 @@ pub(super) fn refine(
         p = q;
         iterations += it;
     }
-    let (shunt, series, rs, rl) = prob.unpack(&p);
+    let (shunt, mut series, rs, rl) = prob.unpack(&p);
     let lad = prob.ladder(&p)?;
+    // A series capacitor of under a milliohm of reactance is a wire (it would be farads); its
+    // effect on the response is below 1e-5 of the mesh's terminating resistance.
+    for c in series.iter_mut() {
+        if matches!(c, Some(cap) if 1.0 / (w0 * *cap) < 1e-3) {
+            *c = None;
+        }
+    }
+    let lad = ladder_of(&prob.design.crystals, &series, &shunt, rs, rl)?;
     let after = predict_ladder(&lad, p[2 * n + 1], b3_target)?;
     let mut max_change: f64 = 0.0;
     for (a, b) in shunt.iter().zip(&design.shunt_caps_f) {
