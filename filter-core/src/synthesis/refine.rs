@@ -348,7 +348,6 @@ pub(super) fn refine(
         iterations += it;
     }
     let (shunt, mut series, rs, rl) = prob.unpack(&p);
-    let lad = prob.ladder(&p)?;
     // A series capacitor of under a milliohm of reactance is a wire (it would be farads); its
     // effect on the response is below 1e-5 of the mesh's terminating resistance.
     for c in series.iter_mut() {
