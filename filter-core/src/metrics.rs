@@ -18,7 +18,7 @@
 //! every crossing and extremum on the circuit itself (bisection and golden-section search), so
 //! its figures do not depend on the grid.
 
-use crate::error::{require_positive, Error, Result};
+use crate::error::{require_positive, Error, ErrorKind, Result};
 use crate::network::{db, Analyze, FrequencyGrid, Sweep};
 use serde::{Deserialize, Serialize};
 
@@ -301,7 +301,7 @@ fn compute(t: &Trace<'_>) -> Result<Performance> {
     }
     let bw6 = hi6 - lo6;
     let bw60 = e60.map(|e| e[1] - e[0]);
-    Ok(Performance {
+    finite(Performance {
         insertion_loss_db: -peak,
         ripple_db: ripple,
         bw_3db_hz: hi3 - lo3,
@@ -316,6 +316,53 @@ fn compute(t: &Trace<'_>) -> Result<Performance> {
         group_delay_center_s: t.delay_at(center),
         group_delay_variation_s: dmax - dmin,
     })
+}
+
+/// `p` when every figure is finite. Circuits with values far outside any real filter (an Rm of
+/// 1e300 Ω, say) overflow the analysis; that must be an error, not a NaN in a report.
+fn finite(p: Performance) -> Result<Performance> {
+    let figures = [
+        ("insertion_loss_db", p.insertion_loss_db),
+        ("ripple_db", p.ripple_db),
+        ("bw_3db_hz", p.bw_3db_hz),
+        ("bw_6db_hz", p.bw_6db_hz),
+        ("bw_60db_hz", p.bw_60db_hz.unwrap_or(0.0)),
+        ("shape_factor_60_6", p.shape_factor_60_6.unwrap_or(0.0)),
+        ("center_hz", p.center_hz),
+        ("return_loss_db", p.return_loss_db),
+        ("group_delay_center_s", p.group_delay_center_s),
+        ("group_delay_variation_s", p.group_delay_variation_s),
+    ];
+    // Crossings found in numerical noise (a circuit that passes nothing, loss of hundreds of
+    // dB) can come out in the wrong order; a band's edges must be ordered.
+    let ordered = p.edges_3db_hz[0] <= p.edges_3db_hz[1]
+        && p.edges_6db_hz[0] <= p.edges_3db_hz[0]
+        && p.edges_3db_hz[1] <= p.edges_6db_hz[1];
+    match figures.iter().find(|(_, v)| !v.is_finite()) {
+        None if ordered => Ok(p),
+        None => Err(Error::new(
+            ErrorKind::InvalidValue,
+            format!(
+                "the analysis finds no usable passband for this circuit (−3 dB edges at {:.1} \
+                 and {:.1} Hz, −6 dB edges at {:.1} and {:.1} Hz, loss {:.1} dB); expected \
+                 component values of a real filter",
+                p.edges_3db_hz[0],
+                p.edges_3db_hz[1],
+                p.edges_6db_hz[0],
+                p.edges_6db_hz[1],
+                p.insertion_loss_db
+            ),
+        )),
+        Some((name, v)) => Err(Error::new(
+            ErrorKind::InvalidValue,
+            format!(
+                "the analysis of this circuit overflows: {name} is not a finite number ({}); \
+                 expected component values of a real filter (look for an Rm, Lm, Cm, C0 or \
+                 capacitor far out of range)",
+                if v.is_nan() { "undefined" } else { "infinite" }
+            ),
+        )),
+    }
 }
 
 /// The crossings of `level` on both sides of the peak when the sampled range does not reach
@@ -400,7 +447,15 @@ pub fn evaluate(
 ) -> Result<Performance> {
     require_positive("lower analysis frequency", f_lo_hz)?;
     let grid = FrequencyGrid::linear(f_lo_hz, f_hi_hz, points.max(5))?;
-    let s = net.sweep(&grid);
+    evaluate_sweep(net, &net.sweep(&grid))
+}
+
+/// As [`evaluate`], for a sweep of `net` the caller already has (any grid in increasing
+/// frequency): the sampled values locate the figures, the circuit refines them.
+///
+/// # Errors
+/// As [`Performance::from_sweep`].
+pub fn evaluate_sweep(net: &impl Analyze, s: &Sweep) -> Result<Performance> {
     let exact = |f: f64| {
         let r = net.response(f);
         (db(r.s21), db(r.s11), r.group_delay_s)

@@ -9,7 +9,7 @@ use crate::flags::{AnalyzeCmd, AxisArg, Format};
 use crate::text;
 use anyhow::{Context, Result};
 use filter_core::design::Design;
-use filter_core::metrics::{evaluate, Performance};
+use filter_core::metrics::{evaluate_sweep, Performance};
 use filter_core::network::{Analyze, FrequencyGrid, Ladder, Sweep};
 use filter_core::plot::{
     group_delay_svg, return_loss_svg, transmission_svg, wide_svg, FrequencyAxis, PlotOptions,
@@ -62,7 +62,7 @@ pub fn run(cmd: &AnalyzeCmd, format: Format) -> Result<()> {
     }
     // The figures are refined on the circuit, so they do not depend on the grid. A table of
     // part of the response (say one skirt) needs no passband, so CSV output goes on without.
-    let metrics = evaluate(&ladder, win.from_hz, win.to_hz, win.points).context("analysis window");
+    let metrics = evaluate_sweep(&ladder, &sweep).context("analysis window");
     let metrics = match (metrics, format) {
         (Ok(p), _) => Some(p),
         (Err(_), Format::Csv) => None,
