@@ -496,6 +496,22 @@ pub struct AnalyzeCmd {
     /// Print the time of the sweep alone on stderr: `analysis: X.XXX ms for N points`.
     #[arg(long)]
     pub timing: bool,
+    /// Analyse between two ends of this system impedance, with an L-network at each end
+    /// matching it to the design's terminations at the centre, e.g. 50.
+    #[arg(long = "match-to", value_name = "OHMS")]
+    pub match_to: Option<Ohms>,
+    /// Form of those L-networks: lowpass (series L, shunt C) or highpass (series C, shunt L).
+    #[arg(long = "match-form", value_enum, default_value_t = AnalyzeMatchForm::Lowpass, requires = "match_to")]
+    pub match_form: AnalyzeMatchForm,
+}
+
+/// The L-network form for `analyze --match-to`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, ValueEnum)]
+pub enum AnalyzeMatchForm {
+    /// Series inductor, shunt capacitor.
+    Lowpass,
+    /// Series capacitor, shunt inductor.
+    Highpass,
 }
 
 /// `netlist`.

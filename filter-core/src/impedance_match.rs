@@ -769,3 +769,72 @@ mod tests {
         );
     }
 }
+
+/// The design's ladder between two `system_ohm` ends, with an L-network of `form` at each end
+/// matching the system impedance to that end's termination at the design centre. An end whose
+/// termination already equals the system impedance is connected directly.
+///
+/// # Errors
+/// A bad system impedance or design record.
+pub fn ladder_with_matching(
+    design: &crate::design::Design,
+    system_ohm: f64,
+    form: LForm,
+) -> Result<crate::network::Ladder> {
+    use crate::network::{Branch, Element, Ladder, Loss, Stage};
+    positive("system_ohm", system_ohm, "Ω")?;
+    let inner = design.to_ladder()?;
+    let to_stage = |m: &MatchElement| {
+        let e = match m.element {
+            ReactiveElement::Inductor { inductance_h } => {
+                Element::Inductor(inductance_h, Loss::Lossless)
+            }
+            ReactiveElement::Capacitor { capacitance_f } => {
+                Element::Capacitor(capacitance_f, Loss::Lossless)
+            }
+        };
+        match m.position {
+            ElementPosition::Series => Stage::Series(Branch::Element(e)),
+            ElementPosition::Shunt => Stage::Shunt(Branch::Element(e)),
+        }
+    };
+    let network = |termination: f64| -> Result<Vec<MatchElement>> {
+        if (termination / system_ohm - 1.0).abs() < 1e-12 {
+            Ok(Vec::new())
+        } else {
+            Ok(design_l_network(system_ohm, termination, design.center_hz, form)?.elements())
+        }
+    };
+    let mut stages: Vec<Stage> = network(design.source_ohm)?.iter().map(to_stage).collect();
+    stages.extend(inner.stages().iter().cloned());
+    // The load side's network is listed from its system port: reverse it for signal order.
+    stages.extend(network(design.load_ohm)?.iter().rev().map(to_stage));
+    Ladder::new(system_ohm, system_ohm, stages)
+}
+
+#[cfg(test)]
+mod ladder_tests {
+    use super::*;
+    use crate::crystal::Crystal;
+    use crate::design::{BandwidthAt, ResponseFamily};
+    use crate::network::{db, Analyze};
+    use crate::synthesis::LadderSpec;
+
+    #[test]
+    fn matched_ladder_keeps_the_passband_at_50_ohm() {
+        // Lossless L-networks at the centre present each termination exactly, so at the
+        // centre the matched filter transmits like the bare one between its own terminations.
+        let x = Crystal::from_fs_lm("Y", 9e6, 15e-3, 10.0, 4e-12).unwrap();
+        let d = LadderSpec::identical(ResponseFamily::Butterworth, 4, 2400.0, BandwidthAt::Db3, &x)
+            .synthesize()
+            .unwrap();
+        for form in [LForm::LowPass, LForm::HighPass] {
+            let m = ladder_with_matching(&d, 50.0, form).unwrap();
+            let bare = d.to_ladder().unwrap();
+            let f = d.center_hz;
+            let (a, b) = (db(m.response(f).s21), db(bare.response(f).s21));
+            assert!((a - b).abs() < 1e-9, "{form:?}: {a} vs {b} dB");
+            assert_eq!(m.source_ohm(), 50.0);
+        }
+    }
+}

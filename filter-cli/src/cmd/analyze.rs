@@ -42,9 +42,22 @@ pub fn run(cmd: &AnalyzeCmd, format: Format) -> Result<()> {
         check_output(out, &ins)?;
     }
     let design = read_design(&cmd.design)?;
-    let ladder = design
-        .to_ladder()
-        .with_context(|| format!("design '{}'", cmd.design.display()))?;
+    let ladder = match cmd.match_to {
+        None => design.to_ladder(),
+        Some(r0) => filter_core::impedance_match::ladder_with_matching(
+            &design,
+            f64::from(r0),
+            match cmd.match_form {
+                crate::flags::AnalyzeMatchForm::Lowpass => {
+                    filter_core::impedance_match::LForm::LowPass
+                }
+                crate::flags::AnalyzeMatchForm::Highpass => {
+                    filter_core::impedance_match::LForm::HighPass
+                }
+            },
+        ),
+    }
+    .with_context(|| format!("design '{}'", cmd.design.display()))?;
     let (default, points) = if cmd.wide {
         (wide_window(&design), DEFAULT_WIDE_POINTS)
     } else {

@@ -125,3 +125,31 @@ fn bad_designs_exit_2() {
     run_in(p, &["analyze", &design, "--points", "1"]).bad_input();
     run_in(p, &["analyze", &design, "--from", "9.9M", "--to", "9.8M"]).bad_input();
 }
+
+#[test]
+fn matching_networks_keep_the_passband() {
+    // Lossless L-networks present each termination exactly at the centre, and over a band of
+    // 2.4 kHz at 9.8 MHz their reactances barely change: the passband figures move by far
+    // less than 0.05 dB / 0.1 %.
+    let design = example("demo-design.json");
+    let (bare, _d) = run(&["analyze", &design, "--format", "json"]);
+    for form in ["lowpass", "highpass"] {
+        let (m, _d) = run(&[
+            "analyze",
+            &design,
+            "--match-to",
+            "50",
+            "--match-form",
+            form,
+            "--format",
+            "json",
+        ]);
+        let (a, b) = (bare.json(), m.json());
+        let la = num(&a["performance"]["insertion_loss_db"], "loss");
+        let lb = num(&b["performance"]["insertion_loss_db"], "loss");
+        assert!((la - lb).abs() < 0.05, "{form}: {la} vs {lb}");
+        let ba = num(&a["performance"]["bw_6db_hz"], "bw6");
+        let bb = num(&b["performance"]["bw_6db_hz"], "bw6");
+        assert!(rel(bb, ba) < 1e-3, "{form}: {ba} vs {bb}");
+    }
+}
