@@ -23,6 +23,20 @@ use num_complex::Complex64;
 use serde::{Deserialize, Serialize};
 use std::f64::consts::PI;
 
+/// A value derived from two given ones (Cm from fs and Lm, ...) must itself be usable: finite
+/// and above zero, not an overflow or underflow of extreme inputs.
+fn check_derived(what: &str, value: f64, a: f64, b: f64) -> Result<()> {
+    if value.is_finite() && value > 0.0 {
+        Ok(())
+    } else {
+        Err(Error::invalid(
+            what,
+            format!("{value:e} (from {a:e} and {b:e})"),
+            "a finite value above zero: values of a real crystal",
+        ))
+    }
+}
+
 /// A motional (series R-L-C) branch: the main mode of a crystal or a spurious mode.
 #[derive(Debug, Clone, Copy, PartialEq, Serialize, Deserialize)]
 pub struct MotionalBranch {
@@ -44,11 +58,9 @@ impl MotionalBranch {
         require_positive("Lm", lm_h)?;
         require_non_negative("Rm", rm_ohm)?;
         let w = 2.0 * PI * fs_hz;
-        Ok(MotionalBranch {
-            rm_ohm,
-            lm_h,
-            cm_f: 1.0 / (w * w * lm_h),
-        })
+        let cm_f = 1.0 / (w * w * lm_h);
+        check_derived("Cm = 1/((2π·fs)²·Lm)", cm_f, fs_hz, lm_h)?;
+        Ok(MotionalBranch { rm_ohm, lm_h, cm_f })
     }
 
     /// Series-resonant frequency of the branch, Hz.
@@ -162,7 +174,9 @@ impl Crystal {
         require_positive("fs", fs_hz)?;
         require_positive("Cm", cm_f)?;
         let w = 2.0 * PI * fs_hz;
-        Self::from_lm_cm(id, 1.0 / (w * w * cm_f), cm_f, rm_ohm, c0_f)
+        let lm_h = 1.0 / (w * w * cm_f);
+        check_derived("Lm = 1/((2π·fs)²·Cm)", lm_h, fs_hz, cm_f)?;
+        Self::from_lm_cm(id, lm_h, cm_f, rm_ohm, c0_f)
     }
 
     /// From motional inductance and capacitance.
@@ -178,6 +192,17 @@ impl Crystal {
 
     fn from_branch(id: &str, motional: MotionalBranch, c0_f: f64) -> Result<Self> {
         require_non_negative("C0", c0_f)?;
+        let fs = motional.fs_hz();
+        if !(fs.is_finite() && fs > 0.0) {
+            return Err(Error::invalid(
+                "fs = 1/(2π·sqrt(Lm·Cm))",
+                format!(
+                    "{fs:e} Hz (Lm = {:e} H, Cm = {:e} F)",
+                    motional.lm_h, motional.cm_f
+                ),
+                "a finite frequency above zero: Lm and Cm of a real crystal",
+            ));
+        }
         Ok(Crystal {
             id: id.to_string(),
             motional,

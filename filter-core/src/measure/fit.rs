@@ -446,6 +446,20 @@ fn report(
     let c0_weak = start.c0_held || !c0_sd_finite || sigma.c0_f > 0.3 * p.c0;
     let plan = recommend(&crystal, bw3, c0_weak, options.c0_hint_f);
     let (f_lo, f_hi) = (model.f_lo, model.f_hi);
+    // A fit that ran away from the trace (a file of garbage levels, a frequency typed ten
+    // times too low) leaves figures no crystal has; refuse it instead of reporting NaN.
+    let figures = [peak_hz, peak_db, bw3, rms, plan.start_hz, plan.stop_hz];
+    if figures.iter().any(|v| !v.is_finite()) {
+        return Err(Error::invalid(
+            "sweep",
+            format!(
+                "a trace the fit ran away on (fs = {:.6e} Hz, Rm = {:.3e} Ω, Lm = {:.3e} H)",
+                p.main.fs, p.main.rm, p.main.lm
+            ),
+            "a series-fixture S21 sweep over one crystal's resonance",
+        )
+        .with_hint("check the file's frequencies and levels; sweep across the transmission peak and the notch above it"));
+    }
     let degenerate = [sigma.fs_hz, sigma.lm_h, sigma.rm_ohm, sigma.c0_f]
         .iter()
         .any(|s| !s.is_finite());
@@ -547,6 +561,17 @@ fn report(
             below_peak_db: peak_db - c.level_db,
         }))
         .collect();
+    if spurious
+        .iter()
+        .any(|r| !(r.f_hz.is_finite() && r.level_db.is_finite()))
+    {
+        return Err(Error::invalid(
+            "sweep",
+            "a trace whose secondary responses the fit cannot size (their level is undefined)",
+            "a series-fixture S21 sweep with finite, plausible levels",
+        )
+        .with_hint("check the file for stray values far below the rest of the trace"));
+    }
     spurious.sort_by(|a, b| a.f_hz.total_cmp(&b.f_hz));
     Ok(FitReport {
         fs_hz: crystal.fs_hz(),
@@ -573,12 +598,20 @@ fn main_sigmas(o: &LmOut, m: &Model, p: &Params) -> FitSigma {
     let g0 = -2.0 * m.main.bw / p.main.fs;
     let var_ln_cm = g0 * g0 * o.cov(0, 0) + o.cov(1, 1) + 2.0 * g0 * o.cov(0, 1);
     let cm = 1.0 / ((2.0 * PI * p.main.fs).powi(2) * p.main.lm);
+    // An undetermined parameter has an infinite uncertainty, never NaN (0·∞ for Rm = 0) nor
+    // zero (`max` would turn a NaN variance into 0).
+    let undetermined = |s: f64| if s.is_nan() { f64::INFINITY } else { s };
+    let sd_ln_cm = if var_ln_cm.is_nan() {
+        f64::INFINITY
+    } else {
+        var_ln_cm.max(0.0).sqrt()
+    };
     FitSigma {
-        fs_hz: m.main.bw * o.sd(0),
-        rm_ohm: p.main.rm * o.sd(2),
-        lm_h: p.main.lm * o.sd(1),
-        cm_f: cm * var_ln_cm.max(0.0).sqrt(),
-        c0_f: p.c0 * o.sd(I_C0),
+        fs_hz: undetermined(m.main.bw * o.sd(0)),
+        rm_ohm: undetermined(p.main.rm * o.sd(2)),
+        lm_h: undetermined(p.main.lm * o.sd(1)),
+        cm_f: undetermined(cm * sd_ln_cm),
+        c0_f: undetermined(p.c0 * o.sd(I_C0)),
     }
 }
 
@@ -832,7 +865,8 @@ fn recommend(x: &Crystal, bw3: f64, c0_weak: bool, hint: Option<f64>) -> SweepPl
     let fp = fs * (1.0 + x.cm_f() / c0).sqrt();
     let margin = (6.0 * bw3).max(0.3 * (fp - fs));
     let (start_hz, stop_hz) = (fs - margin, fp + margin);
-    let needed = ((stop_hz - start_hz) / (bw3 / 20.0)).ceil() as usize + 1;
+    // `as` saturates for a huge ratio; the addition must too (no overflow panic).
+    let needed = (((stop_hz - start_hz) / (bw3 / 20.0)).ceil() as usize).saturating_add(1);
     let points = STANDARD_POINTS
         .iter()
         .copied()
