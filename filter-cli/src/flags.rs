@@ -493,7 +493,9 @@ pub struct AnalyzeCmd {
     /// The response table (CSV) goes to this file; stdout keeps the metrics.
     #[command(flatten)]
     pub output: OutputArg,
-    /// Print the time of the sweep alone on stderr: `analysis: X.XXX ms for N points`.
+    /// Print on stderr how long the work took: the sweep (`analysis: X.XXX ms for N points`,
+    /// the first sweep of this process, then the median of 20 repeats of it), the refined
+    /// figures and the table.
     #[arg(long)]
     pub timing: bool,
     /// Analyse between two ends of this system impedance, with an L-network at each end

@@ -70,7 +70,7 @@ pub fn run(cmd: &MatchCmd, format: Format) -> Result<()> {
                         .iter()
                         .find(|x| &x.id == id)
                         .map_or(f64::NAN, |x| x.fs_hz());
-                    writeln!(w, "{},{id},{}", k + 1, ryu::Buffer::new().format(fs))?;
+                    writeln!(w, "{},{id},{}", k + 1, zmij::Buffer::new().format(fs))?;
                 }
             }
             Ok(())

@@ -952,7 +952,7 @@ ideal,error_pct,retuned_target,crystal_id,note";
 /// The parts list as CSV: one row per position, numbers in SI units (shortest round trip),
 /// `value` in engineering notation; `chosen_trim` is the second part of a parallel pair.
 pub fn write_csv(list: &PartsList, w: &mut dyn Write) -> Result<()> {
-    let mut buf = ryu::Buffer::new();
+    let mut buf = zmij::Buffer::new();
     let mut num = |v: Option<f64>| v.map(|v| buf.format(v).to_string()).unwrap_or_default();
     writeln!(w, "{CSV_HEADER}")?;
     for r in &list.rows {

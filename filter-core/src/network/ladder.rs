@@ -4,6 +4,7 @@ use super::{Analyze, Branch, FrequencyGrid, Response, Sweep};
 use crate::error::{require_positive, Result};
 use num_complex::Complex64;
 use std::f64::consts::PI;
+use std::mem::MaybeUninit;
 
 /// One stage of a ladder.
 #[derive(Debug, Clone, PartialEq)]
@@ -116,83 +117,82 @@ impl Ladder {
         &self.stages
     }
 
-    /// Chain matrix [A, B, C, D] and its derivative with respect to ω at `w` (rad/s).
-    #[inline]
-    pub fn abcd(&self, w: f64) -> ([C; 4], [C; 4]) {
-        let one = C::new(1.0, 0.0);
-        let zero = C::new(0.0, 0.0);
-        let (mut a, mut b, mut c, mut d) = (one, zero, zero, one);
-        let (mut da, mut db, mut dc, mut dd) = (zero, zero, zero, zero);
-        let inv_w = 1.0 / w;
-        for f in &self.fast {
-            let (series, z, dz) = match *f {
-                Fast::SeriesCrystal {
-                    inv_cs,
-                    rm,
-                    lm,
-                    inv_cm,
-                    c0,
-                } => {
-                    // Motional branch, C0 across it (see Crystal::z_dz), then the series
-                    // capacitor: x = −1/(ωC), dx/dω = 1/(ω²C).
-                    let zm = C::new(rm, w * lm - inv_cm * inv_w);
-                    let dzm = C::new(0.0, lm + inv_cm * inv_w * inv_w);
-                    let inv = recip(C::new(1.0 - w * c0 * zm.im, w * c0 * zm.re));
-                    let jc0 = C::new(0.0, c0);
-                    let zx = zm * inv;
-                    let dzx = (dzm - jc0 * zm * zm) * inv * inv;
-                    let zc = inv_cs * inv_w;
-                    (
-                        true,
-                        C::new(zx.re, zx.im - zc),
-                        C::new(dzx.re, dzx.im + zc * inv_w),
-                    )
-                }
-                Fast::ShuntCap { c } => (false, C::new(0.0, w * c), C::new(0.0, c)),
-                Fast::General { index } => match &self.stages[index] {
-                    Stage::Series(br) => {
-                        let (z, dz) = br.z_dz(w);
-                        (true, z, dz)
-                    }
-                    Stage::Shunt(br) => {
-                        let (y, dy) = br.y_dy(w);
-                        (false, y, dy)
-                    }
-                },
-            };
-            if series {
-                // [a b; c d]·[1 z; 0 1] = [a, a·z + b; c, c·z + d]
-                db = da * z + a * dz + db;
-                dd = dc * z + c * dz + dd;
-                b += a * z;
-                d += c * z;
-            } else {
-                // [a b; c d]·[1 0; y 1] = [a + b·y, b; c + d·y, d]  (z holds y here)
-                da = da + db * z + b * dz;
-                dc = dc + dd * z + d * dz;
-                a += b * z;
-                c += d * z;
+    /// The immittance of one precompiled stage at `w` (rad/s) and its ω-derivative: `(true,
+    /// Z, dZ/dω)` for a series stage, `(false, Y, dY/dω)` for a shunt one.
+    #[inline(always)]
+    fn stage_immittance(&self, f: &Fast, w: f64, inv_w: f64) -> (bool, C, C) {
+        match *f {
+            Fast::SeriesCrystal {
+                inv_cs,
+                rm,
+                lm,
+                inv_cm,
+                c0,
+            } => {
+                // Motional branch, C0 across it (see Crystal::z_dz), then the series capacitor:
+                // x = −1/(ωC), dx/dω = 1/(ω²C).
+                let zm = C::new(rm, w * lm - inv_cm * inv_w);
+                let dzm = C::new(0.0, lm + inv_cm * inv_w * inv_w);
+                let inv = recip(C::new(1.0 - w * c0 * zm.im, w * c0 * zm.re));
+                let jc0 = C::new(0.0, c0);
+                let zx = zm * inv;
+                let dzx = (dzm - jc0 * zm * zm) * inv * inv;
+                let zc = inv_cs * inv_w;
+                (
+                    true,
+                    C::new(zx.re, zx.im - zc),
+                    C::new(dzx.re, dzx.im + zc * inv_w),
+                )
             }
+            Fast::ShuntCap { c } => (false, C::new(0.0, w * c), C::new(0.0, c)),
+            Fast::General { index } => match &self.stages[index] {
+                Stage::Series(br) => {
+                    let (z, dz) = br.z_dz(w);
+                    (true, z, dz)
+                }
+                Stage::Shunt(br) => {
+                    let (y, dy) = br.y_dy(w);
+                    (false, y, dy)
+                }
+            },
         }
-        ([a, b, c, d], [da, db, dc, dd])
     }
 
     /// Analyse at angular frequency `w` (rad/s).
+    ///
+    /// The chain matrix M = [A B; C D] of the whole ladder is never formed: two column vectors
+    /// are carried from the load to the source instead, u = M·[RL; 1] = [A·RL + B; C·RL + D]
+    /// with its ω-derivative, and u' = M·[−RL; 1]. A series Z maps [v; i] to [v + Z·i; i], a
+    /// shunt Y to [v; i + Y·v]. Then, with Δ = v + Rs·i = A·RL + B + C·Rs·RL + D·Rs:
+    /// S21 = 2·√(Rs·RL)/Δ, S11 = (v − Rs·i)/Δ, S22 = (v' + Rs·i')/Δ and the group delay
+    /// τ = −d arg S21/dω = Im(dΔ/dω / Δ). (Half the work of multiplying out M.)
     #[inline]
     pub fn response_w(&self, w: f64) -> Response {
-        let ([a, b, c, d], [da, db, dc, dd]) = self.abcd(w);
         let (rs, rl) = (self.source_ohm, self.load_ohm);
-        let ar = a * rl;
-        let crr = c * (rs * rl);
-        let dr = d * rs;
-        let den = ar + b + crr + dr;
-        let dden = da * rl + db + dc * (rs * rl) + dd * rs;
+        let zero = C::new(0.0, 0.0);
+        let (mut v, mut i, mut dv, mut di) = (C::new(rl, 0.0), C::new(1.0, 0.0), zero, zero);
+        let (mut v2, mut i2) = (C::new(-rl, 0.0), C::new(1.0, 0.0));
+        let inv_w = 1.0 / w;
+        for f in self.fast.iter().rev() {
+            let (series, x, dx) = self.stage_immittance(f, w, inv_w);
+            if series {
+                dv += dx * i + x * di;
+                v += x * i;
+                v2 += x * i2;
+            } else {
+                di += dx * v + x * dv;
+                i += x * v;
+                i2 += x * v2;
+            }
+        }
+        let den = v + i * rs;
+        let dden = dv + di * rs;
         let inv = recip(den);
         Response {
             f_hz: w / (2.0 * PI),
             s21: inv * (2.0 * (rs * rl).sqrt()),
-            s11: (ar + b - crr - dr) * inv,
-            s22: (-ar + b - crr + dr) * inv,
+            s11: (v - i * rs) * inv,
+            s22: (v2 + i2 * rs) * inv,
             group_delay_s: (dden * inv).im,
         }
     }
@@ -240,22 +240,20 @@ impl Ladder {
     /// loops index several arrays in step, which is what lets them vectorize.
     #[allow(clippy::needless_range_loop)]
     #[inline(always)]
-    fn response_lanes(&self, w: &[f64; LANES], out: &mut Sweep) {
+    fn response_lanes(&self, w: &[f64; LANES], out: &mut Rows<'_>, at: usize) {
         let mut inv_w = [0.0; LANES];
         for k in 0..LANES {
             inv_w[k] = 1.0 / w[k];
         }
-        let (mut a, mut b, mut c, mut d) = (
-            Lanes::splat(1.0, 0.0),
-            Lanes::splat(0.0, 0.0),
-            Lanes::splat(0.0, 0.0),
-            Lanes::splat(1.0, 0.0),
-        );
+        // As in `response_w`: two column vectors carried from the load to the source.
+        let (rs, rl) = (self.source_ohm, self.load_ohm);
         let zero = Lanes::splat(0.0, 0.0);
-        let (mut da, mut db, mut dc, mut dd) = (zero, zero, zero, zero);
+        let (mut v, mut i, mut dv, mut di) =
+            (Lanes::splat(rl, 0.0), Lanes::splat(1.0, 0.0), zero, zero);
+        let (mut v2, mut i2) = (Lanes::splat(-rl, 0.0), Lanes::splat(1.0, 0.0));
         let mut z = zero;
         let mut dz = zero;
-        for f in &self.fast {
+        for f in self.fast.iter().rev() {
             match *f {
                 Fast::SeriesCrystal {
                     inv_cs,
@@ -265,7 +263,7 @@ impl Ladder {
                     c0,
                 } => {
                     for k in 0..LANES {
-                        // As in `abcd`: motional branch, C0 across, series capacitor.
+                        // As in `stage_immittance`: motional branch, C0 across, series capacitor.
                         let (zr, zi) = (rm, w[k] * lm - inv_cm * inv_w[k]);
                         let dzi = lm + inv_cm * inv_w[k] * inv_w[k];
                         let (er, ei) = (1.0 - w[k] * c0 * zi, w[k] * c0 * zr);
@@ -282,65 +280,57 @@ impl Ladder {
                         dz.re[k] = nr * i2r - ni * i2i;
                         dz.im[k] = nr * i2i + ni * i2r + zc * inv_w[k];
                     }
-                    // b += a·z, d += c·z, with derivatives.
-                    mul_add(&mut db, &da, &z);
-                    mul_add(&mut db, &a, &dz);
-                    mul_add(&mut dd, &dc, &z);
-                    mul_add(&mut dd, &c, &dz);
-                    mul_add(&mut b, &a, &z);
-                    mul_add(&mut d, &c, &z);
+                    // v += z·i with dv += dz·i + z·di; v' += z·i'.
+                    mul_add(&mut dv, &dz, &i);
+                    mul_add(&mut dv, &z, &di);
+                    mul_add(&mut v, &z, &i);
+                    mul_add(&mut v2, &z, &i2);
                 }
                 Fast::ShuntCap { c: cap } => {
-                    // a += b·y, c += d·y with y = jωC, dy/dω = jC.
+                    // i += y·v with y = jωC, dy/dω = jC; i' += y·v'.
                     for k in 0..LANES {
                         let y = w[k] * cap;
-                        da.re[k] += -db.im[k] * y - b.im[k] * cap;
-                        da.im[k] += db.re[k] * y + b.re[k] * cap;
-                        dc.re[k] += -dd.im[k] * y - d.im[k] * cap;
-                        dc.im[k] += dd.re[k] * y + d.re[k] * cap;
-                        a.re[k] += -b.im[k] * y;
-                        a.im[k] += b.re[k] * y;
-                        c.re[k] += -d.im[k] * y;
-                        c.im[k] += d.re[k] * y;
+                        di.re[k] += -dv.im[k] * y - v.im[k] * cap;
+                        di.im[k] += dv.re[k] * y + v.re[k] * cap;
+                        i.re[k] += -v.im[k] * y;
+                        i.im[k] += v.re[k] * y;
+                        i2.re[k] += -v2.im[k] * y;
+                        i2.im[k] += v2.re[k] * y;
                     }
                 }
                 Fast::General { .. } => unreachable!("response_lanes needs an all-fast ladder"),
             }
         }
-        let (rs, rl) = (self.source_ohm, self.load_ohm);
-        let rsrl = rs * rl;
-        let gain = 2.0 * rsrl.sqrt();
+        let gain = 2.0 * (rs * rl).sqrt();
         for k in 0..LANES {
-            let ar = C::new(a.re[k] * rl, a.im[k] * rl);
-            let bb = C::new(b.re[k], b.im[k]);
-            let crr = C::new(c.re[k] * rsrl, c.im[k] * rsrl);
-            let dr = C::new(d.re[k] * rs, d.im[k] * rs);
-            let den = ar + bb + crr + dr;
-            let dden = C::new(
-                da.re[k] * rl + db.re[k] + dc.re[k] * rsrl + dd.re[k] * rs,
-                da.im[k] * rl + db.im[k] + dc.im[k] * rsrl + dd.im[k] * rs,
-            );
+            let vk = C::new(v.re[k], v.im[k]);
+            let ik = C::new(i.re[k] * rs, i.im[k] * rs);
+            let den = vk + ik;
+            let dden = C::new(dv.re[k] + di.re[k] * rs, dv.im[k] + di.im[k] * rs);
+            let v2k = C::new(v2.re[k] + i2.re[k] * rs, v2.im[k] + i2.im[k] * rs);
             let inv = recip(den);
-            out.f_hz.push(w[k] / (2.0 * PI));
-            out.s21.push(inv * gain);
-            out.s11.push((ar + bb - crr - dr) * inv);
-            out.s22.push((-ar + bb - crr + dr) * inv);
-            out.group_delay_s.push((dden * inv).im);
+            let at = at + k;
+            out.f_hz[at].write(w[k] / (2.0 * PI));
+            out.s21[at].write(inv * gain);
+            out.s11[at].write((vk - ik) * inv);
+            out.s22[at].write(v2k * inv);
+            out.group_delay_s[at].write((dden * inv).im);
         }
     }
 
-    /// All points, `LANES` at a time (the last chunk padded with its last frequency; the
-    /// extra points are dropped by the caller).
+    /// Points `first..first + rows.len()` of the sweep, `LANES` at a time, into `rows` (whose
+    /// length is a multiple of `LANES`); lanes past point `n - 1` repeat its frequency and are
+    /// dropped by the caller.
     #[inline(always)]
-    fn chunks(&self, n: usize, w_at: &impl Fn(usize) -> f64, out: &mut Sweep) {
-        let mut i = 0;
+    fn chunks(&self, first: usize, n: usize, w_at: &impl Fn(usize) -> f64, rows: &mut Rows<'_>) {
         let mut w = [0.0; LANES];
-        while i < n {
+        let mut at = 0;
+        while at < rows.f_hz.len() {
             for (k, wk) in w.iter_mut().enumerate() {
-                *wk = w_at((i + k).min(n - 1));
+                *wk = w_at((first + at + k).min(n - 1));
             }
-            self.response_lanes(&w, out);
-            i += LANES;
+            self.response_lanes(&w, rows, at);
+            at += LANES;
         }
     }
 
@@ -348,37 +338,95 @@ impl Ladder {
     /// portable build stays SSE2. No FMA, so the results are bit-identical to the portable path.
     #[cfg(target_arch = "x86_64")]
     #[target_feature(enable = "avx2")]
-    unsafe fn chunks_avx2(&self, n: usize, w_at: &impl Fn(usize) -> f64, out: &mut Sweep) {
-        self.chunks(n, w_at, out)
+    unsafe fn chunks_avx2(
+        &self,
+        first: usize,
+        n: usize,
+        w_at: &impl Fn(usize) -> f64,
+        rows: &mut Rows<'_>,
+    ) {
+        self.chunks(first, n, w_at, rows)
+    }
+
+    /// [`Ladder::chunks`] compiled for AVX-512 (8-wide double vectors, 32 registers: one lane
+    /// group per register, so the 16 chain-matrix accumulators stay in registers), chosen at
+    /// run time. Still no FMA contraction, so bit-identical to the other paths.
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx512f")]
+    unsafe fn chunks_avx512(
+        &self,
+        first: usize,
+        n: usize,
+        w_at: &impl Fn(usize) -> f64,
+        rows: &mut Rows<'_>,
+    ) {
+        self.chunks(first, n, w_at, rows)
+    }
+
+    /// [`Ladder::chunks`] on the widest vectors this CPU has.
+    fn chunks_best(
+        &self,
+        first: usize,
+        n: usize,
+        w_at: &impl Fn(usize) -> f64,
+        rows: &mut Rows<'_>,
+    ) {
+        #[cfg(target_arch = "x86_64")]
+        {
+            if std::arch::is_x86_feature_detected!("avx512f") {
+                // SAFETY: the CPU has just been found to support AVX-512F.
+                unsafe { self.chunks_avx512(first, n, w_at, rows) };
+                return;
+            }
+            if std::arch::is_x86_feature_detected!("avx2") {
+                // SAFETY: the CPU has just been found to support AVX2.
+                unsafe { self.chunks_avx2(first, n, w_at, rows) };
+                return;
+            }
+        }
+        self.chunks(first, n, w_at, rows);
     }
 
     fn sweep_angular(&self, n: usize, w_at: impl Fn(usize) -> f64) -> Sweep {
-        let mut out = Sweep::with_capacity(n + LANES);
-        if self.all_fast() {
-            #[cfg(target_arch = "x86_64")]
-            {
-                if std::arch::is_x86_feature_detected!("avx2") {
-                    // SAFETY: the CPU has just been found to support AVX2.
-                    unsafe { self.chunks_avx2(n, &w_at, &mut out) };
-                } else {
-                    self.chunks(n, &w_at, &mut out);
-                }
-            }
-            #[cfg(not(target_arch = "x86_64"))]
-            self.chunks(n, &w_at, &mut out);
-            out.f_hz.truncate(n);
-            out.s21.truncate(n);
-            out.s11.truncate(n);
-            out.s22.truncate(n);
-            out.group_delay_s.truncate(n);
-        } else {
+        if !self.all_fast() {
+            let mut out = Sweep::with_capacity(n);
             for i in 0..n {
                 out.push(self.response_w(w_at(i)));
             }
+            return out;
         }
-        // Report the frequencies exactly as given, not as round-tripped through ω.
+        let padded = n.div_ceil(LANES) * LANES;
+        // The columns are written in place, left uninitialised until then (zeroing them first
+        // would touch every page twice).
+        let mut out = Sweep::with_capacity(padded);
+        let mut rows = Rows {
+            f_hz: &mut out.f_hz.spare_capacity_mut()[..padded],
+            s21: &mut out.s21.spare_capacity_mut()[..padded],
+            s11: &mut out.s11.spare_capacity_mut()[..padded],
+            s22: &mut out.s22.spare_capacity_mut()[..padded],
+            group_delay_s: &mut out.group_delay_s.spare_capacity_mut()[..padded],
+        };
+        self.chunks_best(0, n, &w_at, &mut rows);
+        // SAFETY: `chunks` has written every one of the first `padded` elements of each column
+        // (it covers `0..padded` in whole chunks of `LANES` and writes every lane); `n <= padded`.
+        unsafe {
+            out.f_hz.set_len(n);
+            out.s21.set_len(n);
+            out.s11.set_len(n);
+            out.s22.set_len(n);
+            out.group_delay_s.set_len(n);
+        }
         out
     }
+}
+
+/// The output columns of a run of points, written in place.
+struct Rows<'a> {
+    f_hz: &'a mut [MaybeUninit<f64>],
+    s21: &'a mut [MaybeUninit<Complex64>],
+    s11: &'a mut [MaybeUninit<Complex64>],
+    s22: &'a mut [MaybeUninit<Complex64>],
+    group_delay_s: &'a mut [MaybeUninit<f64>],
 }
 
 impl Analyze for Ladder {
@@ -402,5 +450,107 @@ impl Analyze for Ladder {
         let mut s = self.sweep_angular(f_hz.len(), |i| 2.0 * PI * f_hz[i]);
         s.f_hz.copy_from_slice(f_hz);
         s
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::network::{Element, Loss};
+
+    /// An all-fast ladder of `n` unequal crystals with series and shunt capacitors.
+    fn ladder(n: usize) -> Ladder {
+        let mut stages = Vec::new();
+        for i in 0..n {
+            let x = crate::crystal::Crystal::from_fs_lm(
+                "x",
+                9e6 + 17.0 * i as f64,
+                15e-3 + 7e-4 * i as f64,
+                8.0 + i as f64,
+                3.5e-12,
+            )
+            .unwrap();
+            let cs = Branch::Element(Element::Capacitor(
+                90e-12 + 5e-12 * i as f64,
+                Loss::Lossless,
+            ));
+            stages.push(Stage::Series(Branch::Series(vec![
+                cs,
+                Element::Crystal(x).into(),
+            ])));
+            if i + 1 < n {
+                stages.push(Stage::Shunt(Branch::Element(Element::Capacitor(
+                    150e-12 + 9e-12 * i as f64,
+                    Loss::Lossless,
+                ))));
+            }
+        }
+        let lad = Ladder::new(240.0, 310.0, stages).unwrap();
+        assert!(lad.all_fast());
+        lad
+    }
+
+    fn same(a: &Sweep, b: &Sweep) -> bool {
+        let bits = |s: &Sweep| -> Vec<u64> {
+            s.f_hz
+                .iter()
+                .chain(&s.group_delay_s)
+                .copied()
+                .chain(
+                    s.s21
+                        .iter()
+                        .chain(&s.s11)
+                        .chain(&s.s22)
+                        .flat_map(|z| [z.re, z.im]),
+                )
+                .map(f64::to_bits)
+                .collect()
+        };
+        bits(a) == bits(b)
+    }
+
+    /// Runs `chunks_*` over all points into a fresh sweep (one share).
+    fn by(lad: &Ladder, n: usize, run: impl Fn(&Ladder, &mut Rows<'_>)) -> Sweep {
+        let padded = n.div_ceil(LANES) * LANES;
+        let mut s = Sweep::with_capacity(padded);
+        let mut rows = Rows {
+            f_hz: &mut s.f_hz.spare_capacity_mut()[..padded],
+            s21: &mut s.s21.spare_capacity_mut()[..padded],
+            s11: &mut s.s11.spare_capacity_mut()[..padded],
+            s22: &mut s.s22.spare_capacity_mut()[..padded],
+            group_delay_s: &mut s.group_delay_s.spare_capacity_mut()[..padded],
+        };
+        run(lad, &mut rows);
+        // SAFETY: one share covers all `padded` rows and `chunks` writes every lane.
+        unsafe {
+            s.f_hz.set_len(n);
+            s.s21.set_len(n);
+            s.s11.set_len(n);
+            s.s22.set_len(n);
+            s.group_delay_s.set_len(n);
+        }
+        s
+    }
+
+    #[test]
+    fn every_vector_width_gives_the_same_bits() {
+        let lad = ladder(8);
+        let n = 1001;
+        let w = |i: usize| 2.0 * PI * (8.998e6 + 3.1 * i as f64);
+        let portable = by(&lad, n, |l, r| l.chunks(0, n, &w, r));
+        assert!(same(&portable, &lad.sweep_angular(n, w)));
+        #[cfg(target_arch = "x86_64")]
+        {
+            if std::arch::is_x86_feature_detected!("avx2") {
+                // SAFETY: checked just above.
+                let v = by(&lad, n, |l, r| unsafe { l.chunks_avx2(0, n, &w, r) });
+                assert!(same(&portable, &v), "AVX2 path differs");
+            }
+            if std::arch::is_x86_feature_detected!("avx512f") {
+                // SAFETY: checked just above.
+                let v = by(&lad, n, |l, r| unsafe { l.chunks_avx512(0, n, &w, r) });
+                assert!(same(&portable, &v), "AVX-512 path differs");
+            }
+        }
     }
 }

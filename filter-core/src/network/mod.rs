@@ -241,6 +241,12 @@ pub fn db(x: Complex64) -> f64 {
     10.0 * x.norm_sqr().log10()
 }
 
+/// Phase of a complex ratio in degrees, wrapped to (−180°, 180°].
+#[inline]
+pub fn phase_deg(x: Complex64) -> f64 {
+    x.arg().to_degrees()
+}
+
 impl Sweep {
     /// An empty sweep with room for `n` points.
     pub fn with_capacity(n: usize) -> Self {
@@ -295,7 +301,7 @@ impl Sweep {
 
     /// Phase of S21 in degrees, wrapped to (−180°, 180°].
     pub fn s21_deg(&self) -> Vec<f64> {
-        self.s21.iter().map(|x| x.arg().to_degrees()).collect()
+        self.s21.iter().map(|&x| phase_deg(x)).collect()
     }
 }
 
