@@ -247,19 +247,24 @@ pub struct OutputArg {
 #[derive(Debug, Clone, Args)]
 pub struct CrystalArgs {
     /// Series-resonant frequency fs, e.g. 9.8268M.
-    #[arg(long, value_name = "F")]
+    #[arg(long, value_name = "F", allow_hyphen_values = true)]
     pub fs: Option<Hertz>,
     /// Motional inductance Lm, e.g. 17m (or give --cm).
-    #[arg(long, value_name = "L", conflicts_with = "cm")]
+    #[arg(
+        long,
+        value_name = "L",
+        conflicts_with = "cm",
+        allow_hyphen_values = true
+    )]
     pub lm: Option<Henries>,
     /// Motional capacitance Cm, e.g. 15.4f (or give --lm).
-    #[arg(long, value_name = "C")]
+    #[arg(long, value_name = "C", allow_hyphen_values = true)]
     pub cm: Option<Farads>,
     /// Motional resistance Rm, e.g. 10 or 10R (0 for a lossless crystal).
-    #[arg(long, value_name = "R")]
+    #[arg(long, value_name = "R", allow_hyphen_values = true)]
     pub rm: Option<Ohms>,
     /// Holder capacitance C0, e.g. 3.9p (0 leaves it out).
-    #[arg(long, value_name = "C0")]
+    #[arg(long, value_name = "C0", allow_hyphen_values = true)]
     pub c0: Option<Farads>,
     /// The crystal's name in the output (designs number the positions: x1, x2, ...).
     #[arg(long, value_name = "ID", default_value = "x")]
@@ -271,10 +276,15 @@ pub struct CrystalArgs {
 pub struct FixtureArgs {
     /// Source and load resistance R0 of the fixture [default: the Touchstone file's reference,
     /// else 50 ohm].
-    #[arg(long = "fixture-ohms", value_name = "R0")]
+    #[arg(long = "fixture-ohms", value_name = "R0", allow_hyphen_values = true)]
     pub fixture_ohms: Option<Ohms>,
     /// Known extra resistance of the fixture in series with the crystal.
-    #[arg(long = "extra-series-ohms", value_name = "RX", default_value = "0")]
+    #[arg(
+        long = "extra-series-ohms",
+        value_name = "RX",
+        default_value = "0",
+        allow_hyphen_values = true
+    )]
     pub extra_series_ohms: Ohms,
 }
 
@@ -282,16 +292,21 @@ pub struct FixtureArgs {
 #[derive(Debug, Clone, Args)]
 pub struct RangeArgs {
     /// Centre of the range (with --span).
-    #[arg(long, value_name = "F", requires = "span", conflicts_with_all = ["from", "to"])]
+    #[arg(long, value_name = "F", requires = "span", conflicts_with_all = ["from", "to"], allow_hyphen_values = true)]
     pub center: Option<Hertz>,
     /// Full width of the range (with --center).
-    #[arg(long, value_name = "S", requires = "center")]
+    #[arg(
+        long,
+        value_name = "S",
+        requires = "center",
+        allow_hyphen_values = true
+    )]
     pub span: Option<Hertz>,
     /// First frequency (with --to).
-    #[arg(long, value_name = "F1", requires = "to")]
+    #[arg(long, value_name = "F1", requires = "to", allow_hyphen_values = true)]
     pub from: Option<Hertz>,
     /// Last frequency (with --from).
-    #[arg(long, value_name = "F2", requires = "from")]
+    #[arg(long, value_name = "F2", requires = "from", allow_hyphen_values = true)]
     pub to: Option<Hertz>,
     /// Number of frequency points.
     #[arg(long, value_name = "N")]
@@ -331,19 +346,19 @@ pub struct FitCmd {
 #[derive(Debug, Clone, Args)]
 pub struct ShiftCmd {
     /// Oscillator frequency F1 with the crystal's series capacitor shorted.
-    #[arg(long = "f-short", value_name = "F1")]
+    #[arg(long = "f-short", value_name = "F1", allow_hyphen_values = true)]
     pub f_short: Hertz,
     /// Oscillator frequency F2 with the series capacitor CS in circuit.
-    #[arg(long = "f-cap", value_name = "F2")]
+    #[arg(long = "f-cap", value_name = "F2", allow_hyphen_values = true)]
     pub f_cap: Hertz,
     /// The series capacitor CS, e.g. 33p.
-    #[arg(long = "cap", value_name = "CS")]
+    #[arg(long = "cap", value_name = "CS", allow_hyphen_values = true)]
     pub cap: Farads,
     /// The crystal's holder capacitance C0, e.g. 3.9p.
-    #[arg(long, value_name = "C0")]
+    #[arg(long, value_name = "C0", allow_hyphen_values = true)]
     pub c0: Farads,
     /// The oscillator's own series load capacitance CL, when known, e.g. 100p.
-    #[arg(long = "osc-load", value_name = "CL")]
+    #[arg(long = "osc-load", value_name = "CL", allow_hyphen_values = true)]
     pub osc_load: Option<Farads>,
 }
 
@@ -360,19 +375,19 @@ pub struct MatchCmd {
     #[arg(long, value_name = "K", default_value_t = 1)]
     pub sets: usize,
     /// Largest fs spread allowed within a set [default: 10 % of --bandwidth, else unlimited].
-    #[arg(long, value_name = "HZ")]
+    #[arg(long, value_name = "HZ", allow_hyphen_values = true)]
     pub tolerance: Option<Hertz>,
     /// The filter's bandwidth, which sets the default --tolerance.
-    #[arg(long, value_name = "BW")]
+    #[arg(long, value_name = "BW", allow_hyphen_values = true)]
     pub bandwidth: Option<Hertz>,
     /// Motional inductance for records without lm_h or cm_f.
-    #[arg(long = "lm-default", value_name = "L")]
+    #[arg(long = "lm-default", value_name = "L", allow_hyphen_values = true)]
     pub lm_default: Option<Henries>,
     /// Holder capacitance for records without c0_f.
-    #[arg(long = "c0-default", value_name = "C0")]
+    #[arg(long = "c0-default", value_name = "C0", allow_hyphen_values = true)]
     pub c0_default: Option<Farads>,
     /// Motional resistance for records without rm_ohm.
-    #[arg(long = "rm-default", value_name = "R")]
+    #[arg(long = "rm-default", value_name = "R", allow_hyphen_values = true)]
     pub rm_default: Option<Ohms>,
     /// Batch CSV of the first set, in the order to build it.
     #[command(flatten)]
@@ -435,13 +450,13 @@ pub struct DesignCmd {
     #[arg(long, value_name = "N")]
     pub order: Option<usize>,
     /// Bandwidth, e.g. 2.4k.
-    #[arg(long, value_name = "BW")]
+    #[arg(long, value_name = "BW", allow_hyphen_values = true)]
     pub bandwidth: Hertz,
     /// Where --bandwidth is measured.
     #[arg(long = "bandwidth-at", value_enum, default_value_t = BandwidthAtArg::Db3)]
     pub bandwidth_at: BandwidthAtArg,
     /// Passband ripple of a Chebyshev response [default: 0.1 dB].
-    #[arg(long, value_name = "DB")]
+    #[arg(long, value_name = "DB", allow_hyphen_values = true)]
     pub ripple: Option<Decibels>,
     /// Predistort for the crystals' finite Q (ideal shape, flat extra loss).
     #[arg(long)]
@@ -500,7 +515,7 @@ pub struct AnalyzeCmd {
     pub timing: bool,
     /// Analyse between two ends of this system impedance, with an L-network at each end
     /// matching it to the design's terminations at the centre, e.g. 50.
-    #[arg(long = "match-to", value_name = "OHMS")]
+    #[arg(long = "match-to", value_name = "OHMS", allow_hyphen_values = true)]
     pub match_to: Option<Ohms>,
     /// Form of those L-networks: lowpass (series L, shunt C) or highpass (series C, shunt L).
     #[arg(long = "match-form", value_enum, default_value_t = AnalyzeMatchForm::Lowpass, requires = "match_to")]
@@ -551,7 +566,7 @@ pub struct TouchstoneCmd {
     #[command(flatten)]
     pub range: RangeArgs,
     /// Reference resistance of the file [default: the design's source termination].
-    #[arg(long, value_name = "R0")]
+    #[arg(long, value_name = "R0", allow_hyphen_values = true)]
     pub reference: Option<Ohms>,
     /// How each S-parameter is written.
     #[arg(long = "data-format", value_enum, default_value_t = DataFormatArg::Ma)]

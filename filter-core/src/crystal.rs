@@ -101,9 +101,11 @@ struct CrystalRecord {
     cm_f: f64,
     rm_ohm: f64,
     c0_f: f64,
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    /// `null` when C0 is 0 (no parallel resonance).
+    #[serde(default)]
     fp_hz: Option<f64>,
-    #[serde(default, skip_serializing_if = "Option::is_none")]
+    /// `null` when Rm is 0 (a lossless crystal).
+    #[serde(default)]
     qu: Option<f64>,
     #[serde(default, skip_serializing_if = "Vec::is_empty")]
     spurious: Vec<MotionalBranch>,

@@ -269,7 +269,7 @@ impl LadderSpec {
                 }
             })?;
         }
-        check_against_spec(&mut design, b_norm, &lp);
+        check_against_spec(&mut design, b_norm, &lp)?;
         Ok(design)
     }
 }
@@ -343,7 +343,11 @@ pub fn predict_ladder(ladder: &Ladder, f0: f64, b3: f64) -> Result<Performance> 
     })
 }
 
-fn check_against_spec(design: &mut Design, _b_norm: f64, lp: &LowpassData) {
+/// Relative shortfall of the analysed bandwidth beyond which a request over the crystals'
+/// limit is refused rather than returned with a warning.
+const REFUSED_SHORTFALL: f64 = 0.3;
+
+fn check_against_spec(design: &mut Design, b_norm: f64, lp: &LowpassData) -> Result<()> {
     let p = &design.performance;
     if matches!(design.spec.family, ResponseFamily::EqualC) && p.ripple_db > 1.0 {
         design.warnings.push(format!(
@@ -358,16 +362,34 @@ fn check_against_spec(design: &mut Design, _b_norm: f64, lp: &LowpassData) {
         BandwidthAt::Ripple => (p.bw_3db_hz / lp.w3, "ripple (from −3 dB)"),
     };
     let err = got / design.spec.bandwidth_hz - 1.0;
+    // A mesh tuning can exist beyond the (fp − fs)/(2κ) limit (near fp), but the ladder it
+    // gives is far narrower than asked: past the limit, a large shortfall is an error.
+    let limit = bandwidth_limit_hz(&design.crystals, &design.g);
+    let over_limit = limit.is_finite() && b_norm > limit;
+    if over_limit && err < -REFUSED_SHORTFALL {
+        let e = unrealizable_error(&design.crystals, &design.g, b_norm);
+        return Err(Error::unrealizable(format!(
+            "{} (the nearest tuning gives a {level} bandwidth of {got:.0} Hz, {:.0} % of the {:.0} Hz asked for)",
+            e.message(),
+            100.0 * got / design.spec.bandwidth_hz,
+            design.spec.bandwidth_hz
+        ))
+        .with_hint("use a narrower bandwidth, a lower order, crystals with a larger Cm/C0 ratio, or a family with weaker couplings (Bessel, Gaussian)"));
+    }
     if err.abs() > 0.02 {
+        let advice = if over_limit {
+            format!(
+                "; the request is beyond what these crystals allow (about {limit:.0} Hz at the prototype edge, {b_norm:.0} Hz needed): a narrower bandwidth or a lower order gets closer"
+            )
+        } else if design.spec.refine {
+            String::new()
+        } else {
+            "; --refine corrects this on the exact model".to_string()
+        };
         design.warnings.push(format!(
-            "the analysed {level} bandwidth is {got:.1} Hz, {:+.1} % from the {:.1} Hz asked for{}",
+            "the analysed {level} bandwidth is {got:.1} Hz, {:+.1} % from the {:.1} Hz asked for{advice}",
             100.0 * err,
             design.spec.bandwidth_hz,
-            if design.spec.refine {
-                ""
-            } else {
-                "; --refine corrects this on the exact model"
-            }
         ));
     }
     if let ResponseFamily::Chebyshev { ripple_db } = design.spec.family {
@@ -383,6 +405,7 @@ fn check_against_spec(design: &mut Design, _b_norm: f64, lp: &LowpassData) {
             ));
         }
     }
+    Ok(())
 }
 
 fn mean_qu(crystals: &[Crystal]) -> f64 {

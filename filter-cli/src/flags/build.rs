@@ -102,7 +102,7 @@ pub struct RoundingArgs {
     #[arg(long)]
     pub pairs: bool,
     /// How many times smaller a pair's error must be than the single part's to be chosen.
-    #[arg(long = "pair-gain", value_name = "G", default_value_t = DEFAULT_PAIR_GAIN)]
+    #[arg(long = "pair-gain", value_name = "G", default_value_t = DEFAULT_PAIR_GAIN, allow_hyphen_values = true)]
     pub pair_gain: f64,
     /// Round every capacitor on its own, without re-solving the series capacitors.
     #[arg(long = "no-retune")]
@@ -127,7 +127,7 @@ pub enum MatchFormArg {
 #[derive(Debug, Clone, Args)]
 pub struct MatchArgs {
     /// System impedance to match each termination to at the centre, e.g. 50.
-    #[arg(long = "match-to", value_name = "OHMS")]
+    #[arg(long = "match-to", value_name = "OHMS", allow_hyphen_values = true)]
     pub match_to: Option<Ohms>,
     /// Form of the matching network at each end.
     #[arg(
@@ -146,19 +146,39 @@ pub struct ToleranceArgs {
     #[arg(long, value_name = "N", default_value_t = 1000)]
     pub trials: usize,
     /// Capacitor tolerance in percent (uniform within +/- this).
-    #[arg(long = "cap-tol", value_name = "PCT", default_value = "5")]
+    #[arg(
+        long = "cap-tol",
+        value_name = "PCT",
+        default_value = "5",
+        allow_hyphen_values = true
+    )]
     pub cap_tol: Percent,
     /// Capacitors Gaussian with the tolerance at 3 sigma instead of uniform.
     #[arg(long = "gaussian-caps")]
     pub gaussian_caps: bool,
     /// Standard deviation of each crystal's fs, e.g. 20 (Hz).
-    #[arg(long = "fs-sigma", value_name = "HZ", default_value = "0")]
+    #[arg(
+        long = "fs-sigma",
+        value_name = "HZ",
+        default_value = "0",
+        allow_hyphen_values = true
+    )]
     pub fs_sigma: Hertz,
     /// Standard deviation of each crystal's Lm, in percent.
-    #[arg(long = "lm-sigma", value_name = "PCT", default_value = "0")]
+    #[arg(
+        long = "lm-sigma",
+        value_name = "PCT",
+        default_value = "0",
+        allow_hyphen_values = true
+    )]
     pub lm_sigma: Percent,
     /// Standard deviation of each crystal's Rm, in percent.
-    #[arg(long = "rm-sigma", value_name = "PCT", default_value = "0")]
+    #[arg(
+        long = "rm-sigma",
+        value_name = "PCT",
+        default_value = "0",
+        allow_hyphen_values = true
+    )]
     pub rm_sigma: Percent,
     /// Key of the random numbers; the same seed gives the same report.
     #[arg(long, value_name = "S", default_value_t = 0)]
@@ -172,13 +192,13 @@ pub struct ToleranceArgs {
 #[derive(Debug, Clone, Args)]
 pub struct LimitArgs {
     /// Largest passband ripple [default: the design's + 1 dB].
-    #[arg(long = "max-ripple", value_name = "DB")]
+    #[arg(long = "max-ripple", value_name = "DB", allow_hyphen_values = true)]
     pub max_ripple: Option<Decibels>,
     /// Allowed deviation of the -6 dB bandwidth from the design's, in percent [default: 5].
-    #[arg(long = "bw6-tol", value_name = "PCT")]
+    #[arg(long = "bw6-tol", value_name = "PCT", allow_hyphen_values = true)]
     pub bw6_tol: Option<Percent>,
     /// Largest insertion loss [default: the design's + 2 dB].
-    #[arg(long = "max-loss", value_name = "DB")]
+    #[arg(long = "max-loss", value_name = "DB", allow_hyphen_values = true)]
     pub max_loss: Option<Decibels>,
 }
 

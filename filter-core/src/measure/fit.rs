@@ -177,6 +177,39 @@ pub fn fit_sweep(trace: &MeasuredTrace, fixture: &FixtureSpec, id: &str) -> Resu
     fit_sweep_with(trace, fixture, id, &FitOptions::default())
 }
 
+/// Least variation of a trace's level, dB, for it to show a resonance. Across a crystal's
+/// series resonance in a series fixture the level changes by far more (the peak stands tens of
+/// dB above the C0 feedthrough a few bandwidths away; common practice); a sweep that stays
+/// within its −3 dB band cannot size the crystal either.
+const MIN_LEVEL_RANGE_DB: f64 = 3.0;
+
+/// Refuse a trace that shows no resonance at all: a flat line fits any crystal equally badly.
+fn require_resonance(trace: &MeasuredTrace) -> Result<()> {
+    let finite = trace.s21_db.iter().copied().filter(|v| v.is_finite());
+    let (lo, hi) = finite.fold((f64::INFINITY, f64::NEG_INFINITY), |(a, b), v| {
+        (a.min(v), b.max(v))
+    });
+    if hi - lo >= MIN_LEVEL_RANGE_DB {
+        return Ok(());
+    }
+    Err(Error::invalid(
+        "sweep",
+        format!(
+            "a flat trace with no resonance in it (its level varies by only {:.2} dB, from \
+             {lo:.2} to {hi:.2} dB)",
+            hi - lo
+        ),
+        &format!(
+            "a series-fixture S21 sweep across one crystal's series resonance, whose peak \
+             stands at least {MIN_LEVEL_RANGE_DB} dB above the level away from it"
+        ),
+    )
+    .with_hint(
+        "check that the crystal is in the fixture; sweep wider, centred on its marked \
+         frequency (a few kHz for a crystal near 10 MHz)",
+    ))
+}
+
 /// Fit the BVD parameters (fs, Rm, Lm, Cm, C0) of one crystal to its series-fixture trace.
 ///
 /// Closed-form starting values (peak loss, −3 dB width, notch), then Levenberg–Marquardt on
@@ -191,8 +224,8 @@ pub fn fit_sweep(trace: &MeasuredTrace, fixture: &FixtureSpec, id: &str) -> Resu
 ///
 /// # Errors
 /// An invalid fixture or option; a trace with fewer than 16 points, mismatched lengths,
-/// non-finite values or frequencies not strictly increasing; a fit that does not produce
-/// finite parameters.
+/// non-finite values or frequencies not strictly increasing; a trace whose level varies by
+/// less than 3 dB (no resonance in it); a fit that does not produce finite parameters.
 pub fn fit_sweep_with(
     trace: &MeasuredTrace,
     fixture: &FixtureSpec,
@@ -205,6 +238,7 @@ pub fn fit_sweep_with(
     }
     let use_phase = options.use_phase && trace.s21_deg.is_some();
     let mut data = Data::new(trace, use_phase)?;
+    require_resonance(trace)?;
     let mut warnings = Vec::new();
     if let Some(r) = trace.reference_ohm {
         if (r - fixture.r0_ohm).abs() > 1e-9 * fixture.r0_ohm.max(r) {

@@ -421,3 +421,51 @@ fn refinement_pins_the_bandwidth_with_lossy_crystals() {
     assert!((d.performance.bw_3db_hz / 2400.0 - 1.0).abs() < 1e-3);
     assert!(d.refinement.is_some());
 }
+
+#[test]
+fn a_result_far_narrower_than_asked_beyond_the_limit_is_refused() {
+    // A design that meets its spec, then the same ladder judged against a request four times
+    // the crystals' limit: the shortfall must be an error that names the limit, not a warning
+    // that suggests refinement.
+    let crystals = vec![lossless(9e6, 4e-12); 4];
+    let mut d = spec(
+        ResponseFamily::Butterworth,
+        crystals,
+        1500.0,
+        BandwidthAt::Db3,
+    )
+    .synthesize()
+    .unwrap();
+    let lp = LowpassData {
+        g: d.g.clone(),
+        poles: Vec::new(),
+        w3: 1.0,
+        w6: 1.0,
+    };
+    let limit = bandwidth_limit_hz(&d.crystals, &d.g);
+    assert!(limit.is_finite() && limit > 1500.0);
+    // Within the limit: a shortfall is a warning.
+    d.spec.bandwidth_hz = 1.5 * d.performance.bw_3db_hz;
+    check_against_spec(&mut d, 0.9 * limit, &lp).unwrap();
+    assert!(
+        d.warnings.iter().any(|w| w.contains("--refine")),
+        "{:?}",
+        d.warnings
+    );
+    // Beyond it: refused, with the limit in the message.
+    d.spec.bandwidth_hz = 4.0 * limit;
+    let e = check_against_spec(&mut d, 4.0 * limit, &lp).unwrap_err();
+    assert_eq!(e.kind(), ErrorKind::Unrealizable, "{e}");
+    assert!(e.message().contains("allow about"), "{e}");
+    // Beyond it with a small shortfall: a warning that names the limit instead of --refine.
+    d.warnings.clear();
+    d.spec.bandwidth_hz = 0.9 * d.performance.bw_3db_hz;
+    check_against_spec(&mut d, 1.2 * limit, &lp).unwrap();
+    assert!(
+        d.warnings
+            .iter()
+            .any(|w| w.contains("beyond what these crystals allow")),
+        "{:?}",
+        d.warnings
+    );
+}

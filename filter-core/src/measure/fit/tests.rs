@@ -544,7 +544,7 @@ fn bad_input_is_an_error_not_a_panic() {
         ..o
     };
     assert!(msg(&good, &fx(), &hint).contains("c0_hint_f"));
-    // A flat trace of noise has no resonance to fit, but gives an answer, not a panic.
+    // A flat trace of noise has no resonance to fit: refused, saying so.
     let flat = MeasuredTrace {
         f_hz: (0..200).map(|i| 9e6 + i as f64).collect(),
         s21_db: (0..200)
@@ -553,8 +553,14 @@ fn bad_input_is_an_error_not_a_panic() {
         s21_deg: None,
         reference_ohm: None,
     };
-    if let Ok(r) = fit_sweep(&flat, &fx(), "x") {
-        assert!(!r.warnings.is_empty());
+    let e = fit_sweep(&flat, &fx(), "x").unwrap_err();
+    assert!(e.message().contains("no resonance"), "{e}");
+    // A trace that varies by 3 dB or more is fitted (or refused for other reasons), not
+    // turned away by this check.
+    let mut slope = flat.clone();
+    slope.s21_db[100] = -36.9;
+    if let Err(e) = fit_sweep(&slope, &fx(), "x") {
+        assert!(!e.message().contains("no resonance"), "{e}");
     }
 }
 
