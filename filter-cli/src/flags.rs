@@ -509,8 +509,8 @@ pub struct AnalyzeCmd {
     #[command(flatten)]
     pub output: OutputArg,
     /// Print on stderr how long the work took: the sweep (`analysis: X.XXX ms for N points`,
-    /// the first sweep of this process, then the median of 20 repeats of it), the refined
-    /// figures and the table.
+    /// the first sweep of this process, then the median of 20 repeats of it into one reused
+    /// buffer), the refined figures and the table.
     #[arg(long)]
     pub timing: bool,
     /// Analyse between two ends of this system impedance, with an L-network at each end

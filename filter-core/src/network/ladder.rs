@@ -388,17 +388,32 @@ impl Ladder {
     }
 
     fn sweep_angular(&self, n: usize, w_at: impl Fn(usize) -> f64) -> Sweep {
+        let mut out = Sweep::default();
+        self.sweep_angular_into(n, w_at, &mut out);
+        out
+    }
+
+    /// The sweep into `out`, whose allocations are reused (cleared first, grown if short).
+    fn sweep_angular_into(&self, n: usize, w_at: impl Fn(usize) -> f64, out: &mut Sweep) {
+        out.f_hz.clear();
+        out.s21.clear();
+        out.s11.clear();
+        out.s22.clear();
+        out.group_delay_s.clear();
         if !self.all_fast() {
-            let mut out = Sweep::with_capacity(n);
             for i in 0..n {
                 out.push(self.response_w(w_at(i)));
             }
-            return out;
+            return;
         }
         let padded = n.div_ceil(LANES) * LANES;
+        out.f_hz.reserve(padded);
+        out.s21.reserve(padded);
+        out.s11.reserve(padded);
+        out.s22.reserve(padded);
+        out.group_delay_s.reserve(padded);
         // The columns are written in place, left uninitialised until then (zeroing them first
         // would touch every page twice).
-        let mut out = Sweep::with_capacity(padded);
         let mut rows = Rows {
             f_hz: &mut out.f_hz.spare_capacity_mut()[..padded],
             s21: &mut out.s21.spare_capacity_mut()[..padded],
@@ -416,7 +431,6 @@ impl Ladder {
             out.s22.set_len(n);
             out.group_delay_s.set_len(n);
         }
-        out
     }
 }
 
@@ -436,11 +450,17 @@ impl Analyze for Ladder {
     }
 
     fn sweep(&self, grid: &FrequencyGrid) -> Sweep {
-        let mut s = self.sweep_angular(grid.points(), |i| 2.0 * PI * grid.at(i));
-        for (i, f) in s.f_hz.iter_mut().enumerate() {
+        let mut s = Sweep::default();
+        self.sweep_into(grid, &mut s);
+        s
+    }
+
+    fn sweep_into(&self, grid: &FrequencyGrid, out: &mut Sweep) {
+        self.sweep_angular_into(grid.points(), |i| 2.0 * PI * grid.at(i), out);
+        // Report the frequencies exactly as given, not as round-tripped through ω.
+        for (i, f) in out.f_hz.iter_mut().enumerate() {
             *f = grid.at(i);
         }
-        s
     }
 
     fn sweep_at(&self, f_hz: &[f64]) -> Sweep {
@@ -530,6 +550,28 @@ mod tests {
             s.group_delay_s.set_len(n);
         }
         s
+    }
+
+    #[test]
+    fn sweeping_into_a_used_buffer_gives_the_same_bits() {
+        let lad = ladder(5);
+        let mut out = Sweep::default();
+        for points in [1001, 17, 3, 2000] {
+            let g = FrequencyGrid::linear(8.999e6, 9.001e6, points).unwrap();
+            lad.sweep_into(&g, &mut out);
+            assert!(same(&out, &lad.sweep(&g)), "{points} points");
+        }
+        // The general (per-point) path too: a crystal with a spurious mode.
+        let x = crate::crystal::Crystal::from_fs_lm("x", 9e6, 15e-3, 10.0, 3e-12)
+            .unwrap()
+            .with_spurious(9.05e6, 40e-3, 60.0)
+            .unwrap();
+        let general =
+            Ladder::new(50.0, 50.0, vec![Stage::Series(Element::Crystal(x).into())]).unwrap();
+        assert!(!general.all_fast());
+        let g = FrequencyGrid::linear(8.99e6, 9.06e6, 301).unwrap();
+        general.sweep_into(&g, &mut out);
+        assert!(same(&out, &general.sweep(&g)));
     }
 
     #[test]

@@ -319,6 +319,12 @@ pub trait Analyze {
         out
     }
 
+    /// As [`Analyze::sweep`], into `out`, reusing its allocations where the implementation
+    /// can (repeated sweeps of one size then allocate nothing after the first).
+    fn sweep_into(&self, grid: &FrequencyGrid, out: &mut Sweep) {
+        *out = self.sweep(grid);
+    }
+
     /// The response at each of the given frequencies.
     fn sweep_at(&self, f_hz: &[f64]) -> Sweep {
         let mut out = Sweep::with_capacity(f_hz.len());
