@@ -76,6 +76,44 @@ fn compile(stages: &[Stage]) -> Vec<Fast> {
         .collect()
 }
 
+/// Impedance of a crystal (motional branch Rm, Lm, 1/Cm with C0 across it, see
+/// `Crystal::z_dz`) in series with a capacitor of inverse value `inv_cs` (0 for none), and its
+/// ω-derivative, at `w` (rad/s) with `inv_w` = 1/w: `[Re Z, Im Z, Re dZ/dω, Im dZ/dω]`.
+///
+/// zm = Rm + j(ωLm − 1/(ωCm)), Z = zm/(1 + jωC0·zm) − j/(ωCs), and
+/// dZ/dω = (dzm/dω − jC0·zm²)/(1 + jωC0·zm)² + 1/(ω²Cs). Written in real arithmetic with one
+/// division, so that the lane loop that calls it per lane vectorizes; the scalar path calls
+/// the same function, so both give the same bits.
+#[inline(always)]
+fn crystal_z_dz(
+    rm: f64,
+    lm: f64,
+    inv_cm: f64,
+    c0: f64,
+    inv_cs: f64,
+    w: f64,
+    inv_w: f64,
+) -> [f64; 4] {
+    let (zr, zi) = (rm, w * lm - inv_cm * inv_w);
+    let dzi = lm + inv_cm * inv_w * inv_w;
+    // 1/(1 + jωC0·zm)
+    let (er, ei) = (1.0 - w * c0 * zi, w * c0 * zr);
+    let s = 1.0 / (er * er + ei * ei);
+    let (ir, ii) = (er * s, -ei * s);
+    let (xr, xi) = (zr * ir - zi * ii, zr * ii + zi * ir);
+    // dzm − jC0·zm², over the square of the denominator
+    let (qr, qi) = (zr * zr - zi * zi, 2.0 * zr * zi);
+    let (nr, ni) = (c0 * qi, dzi - c0 * qr);
+    let (i2r, i2i) = (ir * ir - ii * ii, 2.0 * ir * ii);
+    let zc = inv_cs * inv_w;
+    [
+        xr,
+        xi - zc,
+        nr * i2r - ni * i2i,
+        nr * i2i + ni * i2r + zc * inv_w,
+    ]
+}
+
 /// 1/z with one division.
 #[inline(always)]
 fn recip(z: C) -> C {
@@ -129,20 +167,8 @@ impl Ladder {
                 inv_cm,
                 c0,
             } => {
-                // Motional branch, C0 across it (see Crystal::z_dz), then the series capacitor:
-                // x = −1/(ωC), dx/dω = 1/(ω²C).
-                let zm = C::new(rm, w * lm - inv_cm * inv_w);
-                let dzm = C::new(0.0, lm + inv_cm * inv_w * inv_w);
-                let inv = recip(C::new(1.0 - w * c0 * zm.im, w * c0 * zm.re));
-                let jc0 = C::new(0.0, c0);
-                let zx = zm * inv;
-                let dzx = (dzm - jc0 * zm * zm) * inv * inv;
-                let zc = inv_cs * inv_w;
-                (
-                    true,
-                    C::new(zx.re, zx.im - zc),
-                    C::new(dzx.re, dzx.im + zc * inv_w),
-                )
+                let [zr, zi, dzr, dzi] = crystal_z_dz(rm, lm, inv_cm, c0, inv_cs, w, inv_w);
+                (true, C::new(zr, zi), C::new(dzr, dzi))
             }
             Fast::ShuntCap { c } => (false, C::new(0.0, w * c), C::new(0.0, c)),
             Fast::General { index } => match &self.stages[index] {
@@ -263,22 +289,12 @@ impl Ladder {
                     c0,
                 } => {
                     for k in 0..LANES {
-                        // As in `stage_immittance`: motional branch, C0 across, series capacitor.
-                        let (zr, zi) = (rm, w[k] * lm - inv_cm * inv_w[k]);
-                        let dzi = lm + inv_cm * inv_w[k] * inv_w[k];
-                        let (er, ei) = (1.0 - w[k] * c0 * zi, w[k] * c0 * zr);
-                        let s = 1.0 / (er * er + ei * ei);
-                        let (ir, ii) = (er * s, -ei * s);
-                        let (xr, xi) = (zr * ir - zi * ii, zr * ii + zi * ir);
-                        // dzm − jC0·zm²
-                        let (qr, qi) = (zr * zr - zi * zi, 2.0 * zr * zi);
-                        let (nr, ni) = (c0 * qi, dzi - c0 * qr);
-                        let (i2r, i2i) = (ir * ir - ii * ii, 2.0 * ir * ii);
-                        let zc = inv_cs * inv_w[k];
-                        z.re[k] = xr;
-                        z.im[k] = xi - zc;
-                        dz.re[k] = nr * i2r - ni * i2i;
-                        dz.im[k] = nr * i2i + ni * i2r + zc * inv_w[k];
+                        let [zr, zi, dzr, dzi] =
+                            crystal_z_dz(rm, lm, inv_cm, c0, inv_cs, w[k], inv_w[k]);
+                        z.re[k] = zr;
+                        z.im[k] = zi;
+                        dz.re[k] = dzr;
+                        dz.im[k] = dzi;
                     }
                     // v += z·i with dv += dz·i + z·di; v' += z·i'.
                     mul_add(&mut dv, &dz, &i);
