@@ -140,8 +140,15 @@ pub fn build_from_parts(design: &Design, opts: &RoundingOptions) -> Result<AsBui
     built.source_ohm = source_ohm;
     built.load_ohm = load_ohm;
     let ideal = design.performance;
+    // Keep the kind: a circuit of absurd values is the input's fault, not a numerical one.
     let perf = predict(&built).map_err(|e| {
-        Error::numerical(format!("the as-built circuit could not be analysed: {e}"))
+        Error::new(
+            e.kind(),
+            format!(
+                "the as-built circuit could not be analysed: {}",
+                e.message()
+            ),
+        )
     })?;
     let _ = nominal_b3;
     built.performance = perf;

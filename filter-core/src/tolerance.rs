@@ -925,10 +925,15 @@ pub fn run_yield(
 
     // The nominal on the trials' grid.
     let mut work = Work::new(design, &grid);
+    // The record validated, so a nominal that cannot be analysed holds values no filter has
+    // (or figures from another design): the input's fault.
     let nominal = work.analyse(design, &grid).map_err(|r| {
-        Error::numerical(format!(
-            "the nominal design could not be analysed on its yield window ({r:?}); is performance.center_hz/bw_6db_hz from this design?"
-        ))
+        Error::new(
+            ErrorKind::InvalidValue,
+            format!(
+                "the nominal design could not be analysed on its yield window ({r:?}); expected component values of a real filter and performance.center_hz/bw_6db_hz from this design"
+            ),
+        )
     })?;
     let nominal_db: Vec<f64> = work.sweep.s21_db();
 

@@ -205,3 +205,29 @@ fn bad_input_exits_2() {
     run_in(p, &["yield", "missing.json"]).io_failure();
     run_in(p, &["yield", &design, "--plot", &design]).bad_input();
 }
+
+#[test]
+fn a_design_of_absurd_values_is_bad_input_for_parts_yield_and_report() {
+    // The demo design with one crystal's Rm raised to 1e300 Ω: the record is well formed, but
+    // no filter has such a part; the analysis overflows. That is the input's fault: exit 2.
+    let dir = tempdir();
+    let text = std::fs::read_to_string(example("demo-design.json")).unwrap();
+    let mut d: Value = serde_json::from_str(&text).unwrap();
+    d["crystals"][0]["rm_ohm"] = Value::from(1e300);
+    d["crystals"][0]["qu"] = Value::Null;
+    std::fs::write(dir.path().join("absurd.json"), d.to_string()).unwrap();
+    for args in [
+        &["parts", "absurd.json"][..],
+        &[
+            "yield",
+            "absurd.json",
+            "--trials",
+            "20",
+            "--trial-points",
+            "101",
+        ][..],
+        &["report", "absurd.json", "-o", "r.html"][..],
+    ] {
+        run_in(dir.path(), args).bad_input();
+    }
+}
