@@ -745,6 +745,23 @@ pub fn format_si_digits(value: f64, unit: &str, digits: usize) -> String {
         (-15..15).contains(&exp)
     };
     if !in_range {
+        let mut mantissa = mantissa.to_string();
+        // Rounding up can pass f64::MAX (1.7976931348623157e308 at 4 digits is 1.798e308,
+        // which reads back as infinity): then round toward zero instead, so that what is
+        // written always reads back as a finite number.
+        if !format!("{mantissa}e{exp}")
+            .parse::<f64>()
+            .is_ok_and(f64::is_finite)
+        {
+            mantissa = format!("{:.*e}", digits - 1, value.abs())
+                .split_once('e')
+                .map_or(mantissa.clone(), |(m, _)| {
+                    let places = m.split_once('.').map_or(0, |(_, f)| f.len());
+                    let scale = 10f64.powi(places as i32);
+                    let down = (m.parse::<f64>().unwrap_or(0.0) * scale - 1.0) / scale;
+                    format!("{down:.places$}")
+                });
+        }
         return format!("{sign}{mantissa}e{exp}{sep}{unit}");
     }
     let all_digits: String = mantissa.chars().filter(char::is_ascii_digit).collect();
@@ -1198,6 +1215,24 @@ mod tests {
                 Ok(())
             })
             .unwrap();
+    }
+
+    #[test]
+    fn values_next_to_the_largest_double_read_back_finite() {
+        // Rounded up at 4 digits, f64::MAX would print as 1.798e308: more than any double.
+        for x in [f64::MAX, -f64::MAX, 0.9999 * f64::MAX, 1.7975e308] {
+            for digits in [1, 4, 6, 17] {
+                let text = format_si_digits(x, "", digits);
+                let back = parse_quantity("x", &text, Quantity::Dimensionless)
+                    .unwrap_or_else(|e| panic!("{text}: {e}"));
+                assert!(back.is_finite(), "{x:e} -> {text}");
+                let unit = 10f64.powi(308 - digits as i32 + 1);
+                assert!(
+                    (back - x).abs() <= unit * 1.000_001,
+                    "{x:e} -> {text} -> {back:e}"
+                );
+            }
+        }
     }
 
     #[test]
