@@ -262,11 +262,15 @@ impl Ladder {
         self.fast.iter().all(|f| !matches!(f, Fast::General { .. }))
     }
 
-    /// Analyse `LANES` angular frequencies at once (only when [`Ladder::all_fast`]). The lane
+    /// Analyse `LANES` frequencies (Hz) at once (only when [`Ladder::all_fast`]). The lane
     /// loops index several arrays in step, which is what lets them vectorize.
     #[allow(clippy::needless_range_loop)]
     #[inline(always)]
-    fn response_lanes(&self, w: &[f64; LANES], out: &mut Rows<'_>, at: usize) {
+    fn response_lanes(&self, f: &[f64; LANES], out: &mut Rows<'_>, at: usize) {
+        let mut w = [0.0; LANES];
+        for k in 0..LANES {
+            w[k] = 2.0 * PI * f[k];
+        }
         let mut inv_w = [0.0; LANES];
         for k in 0..LANES {
             inv_w[k] = 1.0 / w[k];
@@ -326,7 +330,7 @@ impl Ladder {
             let v2k = C::new(v2.re[k] + i2.re[k] * rs, v2.im[k] + i2.im[k] * rs);
             let inv = recip(den);
             let at = at + k;
-            out.f_hz[at].write(w[k] / (2.0 * PI));
+            out.f_hz[at].write(f[k]);
             out.s21[at].write(inv * gain);
             out.s11[at].write((vk - ik) * inv);
             out.s22[at].write(v2k * inv);
@@ -338,14 +342,14 @@ impl Ladder {
     /// length is a multiple of `LANES`); lanes past point `n - 1` repeat its frequency and are
     /// dropped by the caller.
     #[inline(always)]
-    fn chunks(&self, first: usize, n: usize, w_at: &impl Fn(usize) -> f64, rows: &mut Rows<'_>) {
-        let mut w = [0.0; LANES];
+    fn chunks(&self, first: usize, n: usize, f_at: &impl Fn(usize) -> f64, rows: &mut Rows<'_>) {
+        let mut f = [0.0; LANES];
         let mut at = 0;
         while at < rows.f_hz.len() {
-            for (k, wk) in w.iter_mut().enumerate() {
-                *wk = w_at((first + at + k).min(n - 1));
+            for (k, fk) in f.iter_mut().enumerate() {
+                *fk = f_at((first + at + k).min(n - 1));
             }
-            self.response_lanes(&w, rows, at);
+            self.response_lanes(&f, rows, at);
             at += LANES;
         }
     }
@@ -358,10 +362,10 @@ impl Ladder {
         &self,
         first: usize,
         n: usize,
-        w_at: &impl Fn(usize) -> f64,
+        f_at: &impl Fn(usize) -> f64,
         rows: &mut Rows<'_>,
     ) {
-        self.chunks(first, n, w_at, rows)
+        self.chunks(first, n, f_at, rows)
     }
 
     /// [`Ladder::chunks`] compiled for AVX-512 (8-wide double vectors, 32 registers: one lane
@@ -373,10 +377,10 @@ impl Ladder {
         &self,
         first: usize,
         n: usize,
-        w_at: &impl Fn(usize) -> f64,
+        f_at: &impl Fn(usize) -> f64,
         rows: &mut Rows<'_>,
     ) {
-        self.chunks(first, n, w_at, rows)
+        self.chunks(first, n, f_at, rows)
     }
 
     /// [`Ladder::chunks`] on the widest vectors this CPU has.
@@ -384,33 +388,33 @@ impl Ladder {
         &self,
         first: usize,
         n: usize,
-        w_at: &impl Fn(usize) -> f64,
+        f_at: &impl Fn(usize) -> f64,
         rows: &mut Rows<'_>,
     ) {
         #[cfg(target_arch = "x86_64")]
         {
             if std::arch::is_x86_feature_detected!("avx512f") {
                 // SAFETY: the CPU has just been found to support AVX-512F.
-                unsafe { self.chunks_avx512(first, n, w_at, rows) };
+                unsafe { self.chunks_avx512(first, n, f_at, rows) };
                 return;
             }
             if std::arch::is_x86_feature_detected!("avx2") {
                 // SAFETY: the CPU has just been found to support AVX2.
-                unsafe { self.chunks_avx2(first, n, w_at, rows) };
+                unsafe { self.chunks_avx2(first, n, f_at, rows) };
                 return;
             }
         }
-        self.chunks(first, n, w_at, rows);
+        self.chunks(first, n, f_at, rows);
     }
 
-    fn sweep_angular(&self, n: usize, w_at: impl Fn(usize) -> f64) -> Sweep {
+    fn sweep_hz(&self, n: usize, f_at: impl Fn(usize) -> f64) -> Sweep {
         let mut out = Sweep::default();
-        self.sweep_angular_into(n, w_at, &mut out);
+        self.sweep_hz_into(n, f_at, &mut out);
         out
     }
 
     /// The sweep into `out`, whose allocations are reused (cleared first, grown if short).
-    fn sweep_angular_into(&self, n: usize, w_at: impl Fn(usize) -> f64, out: &mut Sweep) {
+    fn sweep_hz_into(&self, n: usize, f_at: impl Fn(usize) -> f64, out: &mut Sweep) {
         out.f_hz.clear();
         out.s21.clear();
         out.s11.clear();
@@ -418,7 +422,11 @@ impl Ladder {
         out.group_delay_s.clear();
         if !self.all_fast() {
             for i in 0..n {
-                out.push(self.response_w(w_at(i)));
+                let f = f_at(i);
+                let mut r = self.response_w(2.0 * PI * f);
+                // Report the frequency exactly as given, not as round-tripped through ω.
+                r.f_hz = f;
+                out.push(r);
             }
             return;
         }
@@ -437,7 +445,7 @@ impl Ladder {
             s22: &mut out.s22.spare_capacity_mut()[..padded],
             group_delay_s: &mut out.group_delay_s.spare_capacity_mut()[..padded],
         };
-        self.chunks_best(0, n, &w_at, &mut rows);
+        self.chunks_best(0, n, &f_at, &mut rows);
         // SAFETY: `chunks` has written every one of the first `padded` elements of each column
         // (it covers `0..padded` in whole chunks of `LANES` and writes every lane); `n <= padded`.
         unsafe {
@@ -472,20 +480,14 @@ impl Analyze for Ladder {
     }
 
     fn sweep_into(&self, grid: &FrequencyGrid, out: &mut Sweep) {
-        self.sweep_angular_into(grid.points(), |i| 2.0 * PI * grid.at(i), out);
-        // Report the frequencies exactly as given, not as round-tripped through ω.
-        for (i, f) in out.f_hz.iter_mut().enumerate() {
-            *f = grid.at(i);
-        }
+        self.sweep_hz_into(grid.points(), |i| grid.at(i), out);
     }
 
     fn sweep_at(&self, f_hz: &[f64]) -> Sweep {
         if f_hz.is_empty() {
             return Sweep::default();
         }
-        let mut s = self.sweep_angular(f_hz.len(), |i| 2.0 * PI * f_hz[i]);
-        s.f_hz.copy_from_slice(f_hz);
-        s
+        self.sweep_hz(f_hz.len(), |i| f_hz[i])
     }
 }
 
@@ -594,19 +596,19 @@ mod tests {
     fn every_vector_width_gives_the_same_bits() {
         let lad = ladder(8);
         let n = 1001;
-        let w = |i: usize| 2.0 * PI * (8.998e6 + 3.1 * i as f64);
-        let portable = by(&lad, n, |l, r| l.chunks(0, n, &w, r));
-        assert!(same(&portable, &lad.sweep_angular(n, w)));
+        let f = |i: usize| 8.998e6 + 3.1 * i as f64;
+        let portable = by(&lad, n, |l, r| l.chunks(0, n, &f, r));
+        assert!(same(&portable, &lad.sweep_hz(n, f)));
         #[cfg(target_arch = "x86_64")]
         {
             if std::arch::is_x86_feature_detected!("avx2") {
                 // SAFETY: checked just above.
-                let v = by(&lad, n, |l, r| unsafe { l.chunks_avx2(0, n, &w, r) });
+                let v = by(&lad, n, |l, r| unsafe { l.chunks_avx2(0, n, &f, r) });
                 assert!(same(&portable, &v), "AVX2 path differs");
             }
             if std::arch::is_x86_feature_detected!("avx512f") {
                 // SAFETY: checked just above.
-                let v = by(&lad, n, |l, r| unsafe { l.chunks_avx512(0, n, &w, r) });
+                let v = by(&lad, n, |l, r| unsafe { l.chunks_avx512(0, n, &f, r) });
                 assert!(same(&portable, &v), "AVX-512 path differs");
             }
         }
