@@ -505,21 +505,27 @@ fn to_family(f: &ResponseFamily) -> Result<Family> {
     })
 }
 
-/// The lowpass LC ladder of prototype `g` (g1 a shunt capacitor), for analysis at ω = 2π·f.
-fn lowpass_ladder(g: &[f64]) -> Result<Ladder> {
+/// The lowpass LC ladder of prototype `g` (g1 a shunt capacitor), for analysis at ω = 2π·f,
+/// with uniform dissipation `d` (s → s + d: a conductance g·d across each capacitor, a
+/// resistance g·d in series with each inductor); `d = 0` gives the lossless prototype.
+pub(crate) fn lowpass_ladder(g: &[f64], d: f64) -> Result<Ladder> {
     let n = g.len() - 2;
-    let mut stages = Vec::with_capacity(n);
+    let mut stages = Vec::with_capacity(n + 1);
     for (i, &gi) in g[1..=n].iter().enumerate() {
         if i % 2 == 0 {
-            stages.push(Stage::Shunt(Branch::Element(Element::Capacitor(
-                gi,
-                Loss::Lossless,
-            ))));
+            let c = Branch::Element(Element::Capacitor(gi, Loss::Lossless));
+            stages.push(Stage::Shunt(if d > 0.0 {
+                Branch::Parallel(vec![c, Branch::Element(Element::Resistor(1.0 / (gi * d)))])
+            } else {
+                c
+            }));
         } else {
-            stages.push(Stage::Series(Branch::Element(Element::Inductor(
-                gi,
-                Loss::Lossless,
-            ))));
+            let l = Branch::Element(Element::Inductor(gi, Loss::Lossless));
+            stages.push(Stage::Series(if d > 0.0 {
+                Branch::Series(vec![l, Branch::Element(Element::Resistor(gi * d))])
+            } else {
+                l
+            }));
         }
     }
     // g(n+1) is a resistance after a shunt capacitor, a conductance after a series inductor.
@@ -539,7 +545,7 @@ pub(crate) fn lowpass_loss_db(lad: &Ladder, w: f64) -> f64 {
 
 /// The highest normalized frequency at which the prototype's loss is `loss_db` below its peak.
 pub(crate) fn frequency_at_loss(g: &[f64], loss_db: f64) -> Result<f64> {
-    let lad = lowpass_ladder(g)?;
+    let lad = lowpass_ladder(g, 0.0)?;
     // 2.3 % steps over five decades, then bisection: prototype responses are smooth on that
     // scale beyond the last ripple.
     let steps = 500;

@@ -17,7 +17,7 @@
 use super::{frequency_at_loss, ladder_of, lowpass, predict_ladder, LowpassData};
 use crate::design::{Design, RefinementReport};
 use crate::error::{Error, Result};
-use crate::network::{db, Analyze, Branch, Element, Ladder, Loss, Stage};
+use crate::network::{db, Analyze, Ladder};
 use nalgebra::{DMatrix, DVector};
 use std::f64::consts::PI;
 
@@ -191,29 +191,7 @@ impl Problem<'_> {
 
 /// The prototype's loss with uniform dissipation `d` in every element (s → s + d), dB.
 fn dissipated_loss_db(g: &[f64], d: f64, w: f64) -> f64 {
-    let n = g.len() - 2;
-    let mut stages = Vec::with_capacity(n + 1);
-    for (i, &gi) in g[1..=n].iter().enumerate() {
-        if i % 2 == 0 {
-            let c = Branch::Element(Element::Capacitor(gi, Loss::Lossless));
-            let b = if d > 0.0 {
-                Branch::Parallel(vec![c, Branch::Element(Element::Resistor(1.0 / (gi * d)))])
-            } else {
-                c
-            };
-            stages.push(Stage::Shunt(b));
-        } else {
-            stages.push(Stage::Series(Branch::Series(vec![
-                Branch::Element(Element::Inductor(gi, Loss::Lossless)),
-                Branch::Element(Element::Resistor(gi * d)),
-            ])));
-        }
-    }
-    let load = if n % 2 == 1 { g[n + 1] } else { 1.0 / g[n + 1] };
-    if n == 1 {
-        stages.push(Stage::Series(Branch::Element(Element::Resistor(0.0))));
-    }
-    match Ladder::new(g[0], load, stages) {
+    match super::lowpass_ladder(g, d) {
         Ok(l) => -db(l.response_w(w).s21),
         Err(_) => f64::NAN,
     }

@@ -211,7 +211,7 @@ fn predistortion_gives_the_ideal_shape_with_a_flat_loss() {
         let center_loss = -db(lad.response(d.center_hz).s21);
         eprintln!("{family:?} n={n}: flat loss {center_loss:.2} dB at the centre");
         // Ideal: the plain prototype through the bandpass mapping, normalized to centre loss.
-        let ideal_lad = lowpass_ladder(&lp.g).unwrap();
+        let ideal_lad = lowpass_ladder(&lp.g, 0.0).unwrap();
         let mut worst: f64 = 0.0;
         let g = FrequencyGrid::linear(d.center_hz - 2.0 * b3, d.center_hz + 2.0 * b3, 801).unwrap();
         for f in g.iter() {
