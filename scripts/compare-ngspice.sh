@@ -10,7 +10,7 @@
 #     runs) against ngspice's whole-process time minus that of an 11-point run of the same
 #     netlist (start-up, parsing and output of a few lines);
 #   - numpy: scripts/numpy_ladder.py's in-process time of the same chain-matrix analysis
-#     (S21, S11, S22 and group delay), vectorized over frequency: its first call against our
+#     (S21, S11 and group delay), vectorized over frequency: its first call against our
 #     first sweep (cold), and its median against the median of our repeated sweeps (warm);
 #   - agreement: |S21| of analyze, ngspice and numpy, and |S11| of analyze and numpy, within
 #     0.02 dB wherever S21 > -60 dB (the passband and skirts), so that the times are of the

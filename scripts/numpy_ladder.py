@@ -4,8 +4,8 @@
 Reads an xtal-ladder design record (JSON), analyses the ladder over a linear sweep with the
 same model (BVD crystals with C0 and spurious modes, ideal capacitors, resistive ends) and
 prints the in-process analysis time. It computes what `xtal-ladder analyze` computes per
-point: S21, S11, S22 and the group delay (here the way a numpy user would: the gradient of
-the unwrapped S21 phase). Two times are printed: the first call in this process (cold, as a
+point for its table: S21, S11 and the group delay (here the way a numpy user would: the
+gradient of the unwrapped S21 phase). Two times are printed: the first call in this process (cold, as a
 one-off run of a script is) and the median of --repeat further calls (warm). With --csv it
 writes frequency_hz,s21_db,s11_db,group_delay_s for an agreement check against
 `xtal-ladder analyze`.
@@ -29,7 +29,7 @@ def crystal_z(x, w):
 
 
 def analyse(design, f):
-    """S21, S11, S22 and group delay (s) at the frequencies f (Hz)."""
+    """S21, S11 and group delay (s) at the frequencies f (Hz)."""
     w = 2.0 * np.pi * f
     one = np.ones_like(w, dtype=complex)
     zero = np.zeros_like(w, dtype=complex)
@@ -51,9 +51,8 @@ def analyse(design, f):
     den = ar + b + crr + dr
     s21 = 2.0 * np.sqrt(rs * rl) / den
     s11 = (ar + b - crr - dr) / den
-    s22 = (-ar + b - crr + dr) / den
     delay = -np.gradient(np.unwrap(np.angle(s21)), w)
-    return s21, s11, s22, delay
+    return s21, s11, delay
 
 
 def main():
@@ -69,7 +68,7 @@ def main():
         design = json.load(fh)
     f = np.linspace(args.f1, args.f2, args.points)
     t0 = time.perf_counter()
-    s21, s11, _, delay = analyse(design, f)
+    s21, s11, delay = analyse(design, f)
     first = time.perf_counter() - t0
     times = []
     for _ in range(args.repeat):

@@ -1,6 +1,6 @@
 //! The ladder fast path: a cascade of series and shunt branches analysed by chain matrices.
 
-use super::{Analyze, Branch, FrequencyGrid, Response, Sweep};
+use super::{Analyze, Branch, FrequencyGrid, Outputs, Response, Sweep};
 use crate::error::{require_positive, Result};
 use num_complex::Complex64;
 use std::f64::consts::PI;
@@ -266,7 +266,7 @@ impl Ladder {
     /// loops index several arrays in step, which is what lets them vectorize.
     #[allow(clippy::needless_range_loop)]
     #[inline(always)]
-    fn response_lanes(&self, f: &[f64; LANES], out: &mut Rows<'_>, at: usize) {
+    fn response_lanes<const S22: bool>(&self, f: &[f64; LANES], out: &mut Rows<'_>, at: usize) {
         let mut w = [0.0; LANES];
         for k in 0..LANES {
             w[k] = 2.0 * PI * f[k];
@@ -304,7 +304,9 @@ impl Ladder {
                     mul_add(&mut dv, &dz, &i);
                     mul_add(&mut dv, &z, &di);
                     mul_add(&mut v, &z, &i);
-                    mul_add(&mut v2, &z, &i2);
+                    if S22 {
+                        mul_add(&mut v2, &z, &i2);
+                    }
                 }
                 Fast::ShuntCap { c: cap } => {
                     // i += y·v with y = jωC, dy/dω = jC; i' += y·v'.
@@ -314,8 +316,10 @@ impl Ladder {
                         di.im[k] += dv.re[k] * y + v.re[k] * cap;
                         i.re[k] += -v.im[k] * y;
                         i.im[k] += v.re[k] * y;
-                        i2.re[k] += -v2.im[k] * y;
-                        i2.im[k] += v2.re[k] * y;
+                        if S22 {
+                            i2.re[k] += -v2.im[k] * y;
+                            i2.im[k] += v2.re[k] * y;
+                        }
                     }
                 }
                 Fast::General { .. } => unreachable!("response_lanes needs an all-fast ladder"),
@@ -327,29 +331,37 @@ impl Ladder {
             let ik = C::new(i.re[k] * rs, i.im[k] * rs);
             let den = vk + ik;
             let dden = C::new(dv.re[k] + di.re[k] * rs, dv.im[k] + di.im[k] * rs);
-            let v2k = C::new(v2.re[k] + i2.re[k] * rs, v2.im[k] + i2.im[k] * rs);
             let inv = recip(den);
             let at = at + k;
             out.f_hz[at].write(f[k]);
             out.s21[at].write(inv * gain);
             out.s11[at].write((vk - ik) * inv);
-            out.s22[at].write(v2k * inv);
+            if S22 {
+                let v2k = C::new(v2.re[k] + i2.re[k] * rs, v2.im[k] + i2.im[k] * rs);
+                out.s22[at].write(v2k * inv);
+            }
             out.group_delay_s[at].write((dden * inv).im);
         }
     }
 
     /// Points `first..first + rows.len()` of the sweep, `LANES` at a time, into `rows` (whose
     /// length is a multiple of `LANES`); lanes past point `n - 1` repeat its frequency and are
-    /// dropped by the caller.
+    /// dropped by the caller. `S22`: whether to compute S22 (else `rows.s22` is not touched).
     #[inline(always)]
-    fn chunks(&self, first: usize, n: usize, f_at: &impl Fn(usize) -> f64, rows: &mut Rows<'_>) {
+    fn chunks<const S22: bool>(
+        &self,
+        first: usize,
+        n: usize,
+        f_at: &impl Fn(usize) -> f64,
+        rows: &mut Rows<'_>,
+    ) {
         let mut f = [0.0; LANES];
         let mut at = 0;
         while at < rows.f_hz.len() {
             for (k, fk) in f.iter_mut().enumerate() {
                 *fk = f_at((first + at + k).min(n - 1));
             }
-            self.response_lanes(&f, rows, at);
+            self.response_lanes::<S22>(&f, rows, at);
             at += LANES;
         }
     }
@@ -358,14 +370,14 @@ impl Ladder {
     /// portable build stays SSE2. No FMA, so the results are bit-identical to the portable path.
     #[cfg(target_arch = "x86_64")]
     #[target_feature(enable = "avx2")]
-    unsafe fn chunks_avx2(
+    unsafe fn chunks_avx2<const S22: bool>(
         &self,
         first: usize,
         n: usize,
         f_at: &impl Fn(usize) -> f64,
         rows: &mut Rows<'_>,
     ) {
-        self.chunks(first, n, f_at, rows)
+        self.chunks::<S22>(first, n, f_at, rows)
     }
 
     /// [`Ladder::chunks`] compiled for AVX-512 (8-wide double vectors, 32 registers: one lane
@@ -373,18 +385,18 @@ impl Ladder {
     /// run time. Still no FMA contraction, so bit-identical to the other paths.
     #[cfg(target_arch = "x86_64")]
     #[target_feature(enable = "avx512f")]
-    unsafe fn chunks_avx512(
+    unsafe fn chunks_avx512<const S22: bool>(
         &self,
         first: usize,
         n: usize,
         f_at: &impl Fn(usize) -> f64,
         rows: &mut Rows<'_>,
     ) {
-        self.chunks(first, n, f_at, rows)
+        self.chunks::<S22>(first, n, f_at, rows)
     }
 
     /// [`Ladder::chunks`] on the widest vectors this CPU has.
-    fn chunks_best(
+    fn chunks_best<const S22: bool>(
         &self,
         first: usize,
         n: usize,
@@ -395,26 +407,33 @@ impl Ladder {
         {
             if std::arch::is_x86_feature_detected!("avx512f") {
                 // SAFETY: the CPU has just been found to support AVX-512F.
-                unsafe { self.chunks_avx512(first, n, f_at, rows) };
+                unsafe { self.chunks_avx512::<S22>(first, n, f_at, rows) };
                 return;
             }
             if std::arch::is_x86_feature_detected!("avx2") {
                 // SAFETY: the CPU has just been found to support AVX2.
-                unsafe { self.chunks_avx2(first, n, f_at, rows) };
+                unsafe { self.chunks_avx2::<S22>(first, n, f_at, rows) };
                 return;
             }
         }
-        self.chunks(first, n, f_at, rows);
+        self.chunks::<S22>(first, n, f_at, rows);
     }
 
     fn sweep_hz(&self, n: usize, f_at: impl Fn(usize) -> f64) -> Sweep {
         let mut out = Sweep::default();
-        self.sweep_hz_into(n, f_at, &mut out);
+        self.sweep_hz_into(n, f_at, Outputs::All, &mut out);
         out
     }
 
     /// The sweep into `out`, whose allocations are reused (cleared first, grown if short).
-    fn sweep_hz_into(&self, n: usize, f_at: impl Fn(usize) -> f64, out: &mut Sweep) {
+    fn sweep_hz_into(
+        &self,
+        n: usize,
+        f_at: impl Fn(usize) -> f64,
+        outputs: Outputs,
+        out: &mut Sweep,
+    ) {
+        let s22 = outputs == Outputs::All;
         out.f_hz.clear();
         out.s21.clear();
         out.s11.clear();
@@ -428,13 +447,18 @@ impl Ladder {
                 r.f_hz = f;
                 out.push(r);
             }
+            if !s22 {
+                out.s22.clear();
+            }
             return;
         }
         let padded = n.div_ceil(LANES) * LANES;
         out.f_hz.reserve(padded);
         out.s21.reserve(padded);
         out.s11.reserve(padded);
-        out.s22.reserve(padded);
+        if s22 {
+            out.s22.reserve(padded);
+        }
         out.group_delay_s.reserve(padded);
         // The columns are written in place, left uninitialised until then (zeroing them first
         // would touch every page twice).
@@ -442,17 +466,28 @@ impl Ladder {
             f_hz: &mut out.f_hz.spare_capacity_mut()[..padded],
             s21: &mut out.s21.spare_capacity_mut()[..padded],
             s11: &mut out.s11.spare_capacity_mut()[..padded],
-            s22: &mut out.s22.spare_capacity_mut()[..padded],
+            s22: if s22 {
+                &mut out.s22.spare_capacity_mut()[..padded]
+            } else {
+                &mut []
+            },
             group_delay_s: &mut out.group_delay_s.spare_capacity_mut()[..padded],
         };
-        self.chunks_best(0, n, &f_at, &mut rows);
+        if s22 {
+            self.chunks_best::<true>(0, n, &f_at, &mut rows);
+        } else {
+            self.chunks_best::<false>(0, n, &f_at, &mut rows);
+        }
         // SAFETY: `chunks` has written every one of the first `padded` elements of each column
-        // (it covers `0..padded` in whole chunks of `LANES` and writes every lane); `n <= padded`.
+        // it was given (it covers `0..padded` in whole chunks of `LANES` and writes every lane;
+        // S22 only when asked for, and then its column was given); `n <= padded`.
         unsafe {
             out.f_hz.set_len(n);
             out.s21.set_len(n);
             out.s11.set_len(n);
-            out.s22.set_len(n);
+            if s22 {
+                out.s22.set_len(n);
+            }
             out.group_delay_s.set_len(n);
         }
     }
@@ -480,7 +515,11 @@ impl Analyze for Ladder {
     }
 
     fn sweep_into(&self, grid: &FrequencyGrid, out: &mut Sweep) {
-        self.sweep_hz_into(grid.points(), |i| grid.at(i), out);
+        self.sweep_hz_into(grid.points(), |i| grid.at(i), Outputs::All, out);
+    }
+
+    fn sweep_outputs_into(&self, grid: &FrequencyGrid, outputs: Outputs, out: &mut Sweep) {
+        self.sweep_hz_into(grid.points(), |i| grid.at(i), outputs, out);
     }
 
     fn sweep_at(&self, f_hz: &[f64]) -> Sweep {
@@ -593,22 +632,51 @@ mod tests {
     }
 
     #[test]
+    fn leaving_out_s22_changes_nothing_else() {
+        let x = crate::crystal::Crystal::from_fs_lm("x", 9e6, 15e-3, 10.0, 3e-12)
+            .unwrap()
+            .with_spurious(9.05e6, 40e-3, 60.0)
+            .unwrap();
+        let general =
+            Ladder::new(50.0, 50.0, vec![Stage::Series(Element::Crystal(x).into())]).unwrap();
+        for lad in [ladder(8), general] {
+            for points in [1, 9, 1001] {
+                let g = FrequencyGrid::linear(8.999e6, 9.001e6, points).unwrap();
+                let all = lad.sweep(&g);
+                let mut part = Sweep::default();
+                lad.sweep_outputs_into(&g, Outputs::NoS22, &mut part);
+                assert!(part.s22.is_empty());
+                let mut expect = all.clone();
+                expect.s22.clear();
+                assert!(same(&part, &expect), "{points} points");
+                // And back: a buffer that held a partial sweep takes a full one.
+                lad.sweep_outputs_into(&g, Outputs::All, &mut part);
+                assert!(same(&part, &all));
+            }
+        }
+    }
+
+    #[test]
     fn every_vector_width_gives_the_same_bits() {
         let lad = ladder(8);
         let n = 1001;
         let f = |i: usize| 8.998e6 + 3.1 * i as f64;
-        let portable = by(&lad, n, |l, r| l.chunks(0, n, &f, r));
+        let portable = by(&lad, n, |l, r| l.chunks::<true>(0, n, &f, r));
         assert!(same(&portable, &lad.sweep_hz(n, f)));
         #[cfg(target_arch = "x86_64")]
         {
             if std::arch::is_x86_feature_detected!("avx2") {
                 // SAFETY: checked just above.
-                let v = by(&lad, n, |l, r| unsafe { l.chunks_avx2(0, n, &f, r) });
+                let v = by(&lad, n, |l, r| unsafe {
+                    l.chunks_avx2::<true>(0, n, &f, r)
+                });
                 assert!(same(&portable, &v), "AVX2 path differs");
             }
             if std::arch::is_x86_feature_detected!("avx512f") {
                 // SAFETY: checked just above.
-                let v = by(&lad, n, |l, r| unsafe { l.chunks_avx512(0, n, &f, r) });
+                let v = by(&lad, n, |l, r| unsafe {
+                    l.chunks_avx512::<true>(0, n, &f, r)
+                });
                 assert!(same(&portable, &v), "AVX-512 path differs");
             }
         }

@@ -229,7 +229,7 @@ pub struct Sweep {
     pub s21: Vec<Complex64>,
     /// S11 per frequency.
     pub s11: Vec<Complex64>,
-    /// S22 per frequency.
+    /// S22 per frequency; empty for a sweep made with [`Outputs::NoS22`].
     pub s22: Vec<Complex64>,
     /// Group delay per frequency, s.
     pub group_delay_s: Vec<f64>,
@@ -305,6 +305,16 @@ impl Sweep {
     }
 }
 
+/// What a sweep computes.
+#[derive(Debug, Clone, Copy, PartialEq, Eq)]
+pub enum Outputs {
+    /// S21, S11, S22 and the group delay.
+    All,
+    /// All but S22 (the sweep's `s22` stays empty): what a transmission analysis needs (the
+    /// response table, the figures of merit and the plots), for less arithmetic and memory.
+    NoS22,
+}
+
 /// Anything that can be analysed at a frequency.
 pub trait Analyze {
     /// The response at `f_hz`.
@@ -323,6 +333,15 @@ pub trait Analyze {
     /// can (repeated sweeps of one size then allocate nothing after the first).
     fn sweep_into(&self, grid: &FrequencyGrid, out: &mut Sweep) {
         *out = self.sweep(grid);
+    }
+
+    /// As [`Analyze::sweep_into`], computing only `outputs` (with [`Outputs::NoS22`],
+    /// `out.s22` is left empty; implementations may skip its arithmetic).
+    fn sweep_outputs_into(&self, grid: &FrequencyGrid, outputs: Outputs, out: &mut Sweep) {
+        self.sweep_into(grid, out);
+        if outputs == Outputs::NoS22 {
+            out.s22.clear();
+        }
     }
 
     /// The response at each of the given frequencies.
