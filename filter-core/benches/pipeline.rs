@@ -3,7 +3,9 @@
 
 use criterion::{black_box, criterion_group, criterion_main, Criterion};
 use filter_core::crystal::Crystal;
-use filter_core::network::{Analyze, Branch, Element, FrequencyGrid, Ladder, Loss, Stage};
+use filter_core::network::{
+    Analyze, Branch, Element, FrequencyGrid, Ladder, Loss, Outputs, Stage, Sweep,
+};
 
 /// An 8-crystal (or n-crystal) ladder of unequal crystals with C0, Rm and series capacitors.
 fn ladder(n: usize) -> Ladder {
@@ -34,6 +36,11 @@ fn analysis(c: &mut Criterion) {
     let grid = FrequencyGrid::linear(8.99e6, 9.01e6, 10_001).unwrap();
     g.bench_function("ladder_8x10001", |b| {
         b.iter(|| black_box(lad8.sweep(&grid)))
+    });
+    // What `analyze` runs: S21, S11 and the group delay into a reused buffer.
+    let mut reused = Sweep::default();
+    g.bench_function("ladder_8x10001_no_s22_reused", |b| {
+        b.iter(|| lad8.sweep_outputs_into(&grid, Outputs::NoS22, black_box(&mut reused)))
     });
     let lad12 = ladder(12);
     let grid = FrequencyGrid::linear(8.99e6, 9.01e6, 100_001).unwrap();
