@@ -90,9 +90,9 @@ pub fn run(cmd: &AnalyzeCmd, format: Format) -> Result<()> {
             TIMING_REPEATS
         );
     }
-    // The figures are refined on the circuit, so they do not depend on the grid. A table of
-    // part of the response (say one skirt) needs no passband, so CSV output goes on without.
-    // A bare table needs no figures; text, JSON and the plots (titles, markers) do.
+    // The figures are refined on the circuit, so they do not depend on the grid. Text, JSON
+    // and the plots (titles, markers) need them; a bare table does not. A table of part of the
+    // response (say one skirt) has no passband, so CSV output goes on without them.
     let plots = cmd.plot.is_some() || cmd.return_loss_plot.is_some() || cmd.delay_plot.is_some();
     let metrics = if format == Format::Csv && !plots {
         None
@@ -260,15 +260,10 @@ const ROWS_PER_BLOCK: usize = 512;
 pub fn write_csv(sweep: &Sweep, w: &mut dyn Write) -> Result<()> {
     w.write_all(CSV_HEADER.as_bytes())?;
     w.write_all(b"\n")?;
-    stream_rows(sweep, 0..sweep.len(), w)
-}
-
-/// Format `rows` in blocks and write each block as it is made.
-fn stream_rows(sweep: &Sweep, rows: std::ops::Range<usize>, w: &mut dyn Write) -> Result<()> {
     let mut text = Vec::with_capacity(ROWS_PER_BLOCK * 96);
-    let mut start = rows.start;
-    while start < rows.end {
-        let end = (start + ROWS_PER_BLOCK).min(rows.end);
+    let mut start = 0;
+    while start < sweep.len() {
+        let end = (start + ROWS_PER_BLOCK).min(sweep.len());
         text.clear();
         format_rows(sweep, start..end, &mut text);
         w.write_all(&text)?;

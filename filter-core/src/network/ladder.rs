@@ -344,22 +344,16 @@ impl Ladder {
         }
     }
 
-    /// Points `first..first + rows.len()` of the sweep, `LANES` at a time, into `rows` (whose
-    /// length is a multiple of `LANES`); lanes past point `n - 1` repeat its frequency and are
+    /// The `n` points of the sweep, `LANES` at a time, into `rows` (whose length is `n` rounded
+    /// up to a multiple of `LANES`); lanes past point `n - 1` repeat its frequency and are
     /// dropped by the caller. `S22`: whether to compute S22 (else `rows.s22` is not touched).
     #[inline(always)]
-    fn chunks<const S22: bool>(
-        &self,
-        first: usize,
-        n: usize,
-        f_at: &impl Fn(usize) -> f64,
-        rows: &mut Rows<'_>,
-    ) {
+    fn chunks<const S22: bool>(&self, n: usize, f_at: &impl Fn(usize) -> f64, rows: &mut Rows<'_>) {
         let mut f = [0.0; LANES];
         let mut at = 0;
         while at < rows.f_hz.len() {
             for (k, fk) in f.iter_mut().enumerate() {
-                *fk = f_at((first + at + k).min(n - 1));
+                *fk = f_at((at + k).min(n - 1));
             }
             self.response_lanes::<S22>(&f, rows, at);
             at += LANES;
@@ -372,12 +366,11 @@ impl Ladder {
     #[target_feature(enable = "avx2")]
     unsafe fn chunks_avx2<const S22: bool>(
         &self,
-        first: usize,
         n: usize,
         f_at: &impl Fn(usize) -> f64,
         rows: &mut Rows<'_>,
     ) {
-        self.chunks::<S22>(first, n, f_at, rows)
+        self.chunks::<S22>(n, f_at, rows)
     }
 
     /// [`Ladder::chunks`] compiled for AVX-512 (8-wide double vectors, 32 registers: one lane
@@ -387,18 +380,16 @@ impl Ladder {
     #[target_feature(enable = "avx512f")]
     unsafe fn chunks_avx512<const S22: bool>(
         &self,
-        first: usize,
         n: usize,
         f_at: &impl Fn(usize) -> f64,
         rows: &mut Rows<'_>,
     ) {
-        self.chunks::<S22>(first, n, f_at, rows)
+        self.chunks::<S22>(n, f_at, rows)
     }
 
     /// [`Ladder::chunks`] on the widest vectors this CPU has.
     fn chunks_best<const S22: bool>(
         &self,
-        first: usize,
         n: usize,
         f_at: &impl Fn(usize) -> f64,
         rows: &mut Rows<'_>,
@@ -407,16 +398,16 @@ impl Ladder {
         {
             if std::arch::is_x86_feature_detected!("avx512f") {
                 // SAFETY: the CPU has just been found to support AVX-512F.
-                unsafe { self.chunks_avx512::<S22>(first, n, f_at, rows) };
+                unsafe { self.chunks_avx512::<S22>(n, f_at, rows) };
                 return;
             }
             if std::arch::is_x86_feature_detected!("avx2") {
                 // SAFETY: the CPU has just been found to support AVX2.
-                unsafe { self.chunks_avx2::<S22>(first, n, f_at, rows) };
+                unsafe { self.chunks_avx2::<S22>(n, f_at, rows) };
                 return;
             }
         }
-        self.chunks::<S22>(first, n, f_at, rows);
+        self.chunks::<S22>(n, f_at, rows);
     }
 
     fn sweep_hz(&self, n: usize, f_at: impl Fn(usize) -> f64) -> Sweep {
@@ -474,9 +465,9 @@ impl Ladder {
             group_delay_s: &mut out.group_delay_s.spare_capacity_mut()[..padded],
         };
         if s22 {
-            self.chunks_best::<true>(0, n, &f_at, &mut rows);
+            self.chunks_best::<true>(n, &f_at, &mut rows);
         } else {
-            self.chunks_best::<false>(0, n, &f_at, &mut rows);
+            self.chunks_best::<false>(n, &f_at, &mut rows);
         }
         // SAFETY: `chunks` has written every one of the first `padded` elements of each column
         // it was given (it covers `0..padded` in whole chunks of `LANES` and writes every lane;
@@ -661,22 +652,18 @@ mod tests {
         let lad = ladder(8);
         let n = 1001;
         let f = |i: usize| 8.998e6 + 3.1 * i as f64;
-        let portable = by(&lad, n, |l, r| l.chunks::<true>(0, n, &f, r));
+        let portable = by(&lad, n, |l, r| l.chunks::<true>(n, &f, r));
         assert!(same(&portable, &lad.sweep_hz(n, f)));
         #[cfg(target_arch = "x86_64")]
         {
             if std::arch::is_x86_feature_detected!("avx2") {
                 // SAFETY: checked just above.
-                let v = by(&lad, n, |l, r| unsafe {
-                    l.chunks_avx2::<true>(0, n, &f, r)
-                });
+                let v = by(&lad, n, |l, r| unsafe { l.chunks_avx2::<true>(n, &f, r) });
                 assert!(same(&portable, &v), "AVX2 path differs");
             }
             if std::arch::is_x86_feature_detected!("avx512f") {
                 // SAFETY: checked just above.
-                let v = by(&lad, n, |l, r| unsafe {
-                    l.chunks_avx512::<true>(0, n, &f, r)
-                });
+                let v = by(&lad, n, |l, r| unsafe { l.chunks_avx512::<true>(n, &f, r) });
                 assert!(same(&portable, &v), "AVX-512 path differs");
             }
         }
